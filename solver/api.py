@@ -1,0 +1,114 @@
+"""The Python API: the same results as the command line, as objects.
+
+Examples
+--------
+>>> import solver
+>>> c = solver.loads('''
+... signal VS (in, gnd) 1 V, rs=50
+... resistor R1 (in, out) 1k
+... load RL (out, gnd) 1k
+... ''')
+>>> r = solver.solve(c)
+>>> round(r.quantities["Gv"].real, 4)
+0.4878
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from .diagnostics import Diagnostic, InputError, Loc, error
+from .elaborate import elaborate
+from .model import Circuit
+from .parse import parse
+from .ports import UNITS, PortError, default_frequency, port_quantities
+
+
+def read_source(path: str | Path) -> str:
+    """Read a netlist file as UTF-8; a bad byte is a diagnostic, not a traceback."""
+    p = Path(path)
+    try:
+        data = p.read_bytes()
+    except OSError as e:
+        raise error(None, f"cannot read '{path}': {e.strerror or e}") from None
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as e:
+        line = data[: e.start].count(b"\n") + 1
+        col = e.start - (data.rfind(b"\n", 0, e.start) + 1) + 1
+        raise error(Loc(str(path), line, col), "invalid UTF-8 byte in the file") from None
+    if text.startswith("\ufeff"):
+        text = text[1:]
+    if not text.strip():
+        raise error(Loc(str(path), 1, 1), "the file is empty")
+    return text
+
+
+def loads(text: str, file: str = "<string>") -> Circuit:
+    """Parse and elaborate netlist text into a :class:`~solver.model.Circuit`."""
+    return elaborate(parse(text, file))
+
+
+def load(path: str | Path) -> Circuit:
+    """Read, parse and elaborate a netlist file."""
+    return loads(read_source(path), str(path))
+
+
+@dataclass
+class Result:
+    """What ``portwise solve`` reports."""
+
+    circuit: Circuit
+    frequency_hz: float
+    quantities: dict[str, complex]
+    devices: dict[str, dict[str, float]] = field(default_factory=dict)
+    notes: list[str] = field(default_factory=list)
+
+    def to_json(self) -> dict:
+        return {
+            "circuit": self.circuit.title or Path(self.circuit.file).stem,
+            "frequency_hz": self.frequency_hz,
+            "quantities": {k: {"re": _num(v.real), "im": _num(v.imag) if math.isfinite(v.real) else 0.0,
+                               "unit": UNITS[k]} for k, v in self.quantities.items()},
+            "devices": {name: {k: _num(v) for k, v in p.items()} for name, p in self.devices.items()},
+        }
+
+
+def _num(x: float):
+    if math.isinf(x):
+        return "inf" if x > 0 else "-inf"
+    if math.isnan(x):
+        return "nan"
+    return float(x)
+
+
+DEVICE_COLUMNS = {"bjt": ("gm", "rpi", "ro", "re", "beta"), "mos": ("gm", "ro", "gmb")}
+
+
+def device_table(c: Circuit) -> dict[str, dict[str, float]]:
+    out = {}
+    for d in c.devices:
+        if d.is_bjt:
+            keys = DEVICE_COLUMNS["bjt"] + tuple(k for k in ("rx", "cpi", "cmu") if d.ss.get(k))
+        elif d.is_mos:
+            keys = DEVICE_COLUMNS["mos"] + tuple(k for k in ("cgs", "cgd") if d.ss.get(k))
+        else:
+            keys = ("rd",)
+        out[d.name] = {k: d.ss[k] for k in keys if k in d.ss}
+    return out
+
+
+def solve(circuit: Circuit | str | Path, at: float | None = None) -> Result:
+    """Port quantities of a circuit at ``at`` hertz (default: 1 kHz if reactive, else DC).
+
+    Raises InputError for a circuit that cannot be solved (e.g. singular).
+    """
+    c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    f = default_frequency(c) if at is None else float(at)
+    try:
+        pr = port_quantities(c, f)
+    except PortError as e:
+        raise InputError([Diagnostic("error", Loc(c.file, 1, 1), f"{e} (a floating node, a loop of "
+                                     "voltage sources or a cut set of current sources?)")]) from None
+    return Result(c, f, pr.quantities, device_table(c))

@@ -1,0 +1,1 @@
+"""One module per ``portwise`` subcommand (see solver.cli)."""

@@ -1,0 +1,36 @@
+"""portwise solve: port quantities of a netlist at one frequency."""
+from __future__ import annotations
+
+HELP = "port quantities Rin, Rout, Avo, Av, Gv, Gvo, Ai at one frequency"
+DESCRIPTION = """\
+Expand every transistor into its small-signal model, solve the MNA system and
+print the port quantities: Rin (input port = the signal's nodes, load in place),
+Rout (output port, load removed, signal zeroed), Avo and Av (v_out/v_in without
+and with the load), Gvo and Gv (v_out/v_sig; Zt = v_out/i_sig for a current
+signal) and Ai = i_load/i_in."""
+EPILOG = """\
+example:
+  portwise solve circuits/mic_preamp.pw --at 10kHz
+  portwise solve circuits/mic_preamp.pw --json"""
+
+
+def add_arguments(p) -> None:
+    p.add_argument("file", help="netlist file (.pw)")
+    p.add_argument("--at", metavar="FREQ", help="analysis frequency, e.g. 10kHz (default 1 kHz; DC "
+                   "for a circuit without capacitors or inductors)")
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
+
+
+def run(args) -> int:
+    from .. import api
+    from ..report import solve_report
+    from .common import emit_json, frequency, print_warnings
+    c = api.load(args.file)
+    at = frequency(args.at) if args.at is not None else None
+    result = api.solve(c, at)
+    print_warnings(c)
+    if args.json:
+        emit_json(result.to_json())
+    else:
+        print(solve_report(result))
+    return 0

@@ -1,0 +1,106 @@
+"""The parsed netlist: one plain dataclass per statement, in source order.
+
+This is what :mod:`solver.parse` produces and :mod:`solver.elaborate` reads.
+Values are still expression trees; nothing is evaluated yet.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from .diagnostics import Loc
+from .expr import Expr, Ref
+
+
+@dataclass(frozen=True)
+class Node:
+    name: str
+    loc: Loc
+
+
+@dataclass(frozen=True)
+class Param:
+    key: str
+    value: Expr
+    loc: Loc
+
+
+@dataclass
+class Title:
+    text: str
+    loc: Loc
+
+
+@dataclass
+class Let:
+    name: str
+    value: Expr
+    loc: Loc
+
+
+@dataclass
+class ElementStmt:
+    """Any statement that places an element: ``KEYWORD NAME (nodes)... [sense] [value] params``."""
+
+    keyword: str
+    name: str
+    groups: list[list[Node]]
+    value: Expr | None
+    params: list[Param]
+    loc: Loc
+    name_loc: Loc
+    sense: Ref | None = None
+
+
+@dataclass
+class Output:
+    nodes: list[Node]
+    loc: Loc
+
+
+@dataclass
+class Ground:
+    node: Node
+    loc: Loc
+
+
+@dataclass
+class BlockStart:
+    name: str
+    ports: list[Node]
+    params: list[Param]
+    loc: Loc
+
+
+@dataclass
+class End:
+    loc: Loc
+
+
+@dataclass
+class Use:
+    block: str
+    instance: str
+    nodes: list[Node]
+    params: list[Param]
+    loc: Loc
+    block_loc: Loc
+
+
+@dataclass
+class Claim:
+    quantity: str
+    kind: str  # "exact" (=) | "approx" (~)
+    value: Expr
+    tolerance: Expr | None
+    loc: Loc
+    quantity_loc: Loc
+
+
+Statement = Title | Let | ElementStmt | Output | Ground | BlockStart | End | Use | Claim
+
+
+@dataclass
+class Netlist:
+    file: str
+    source: str
+    statements: list[Statement] = field(default_factory=list)
