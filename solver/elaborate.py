@@ -307,8 +307,9 @@ class _Elaborator:
         self.blocks: dict[str, BlockDef] = {}
         self.circuit = Circuit("", nl.file, nl.source)
         self.circuit.ground = self.ground
-        self.element_entries: list[Entry] = []
+        self.element_entries: list = []
         self.n_elements = 0
+        self._pending: list = []  # (block body, instance scope) to build after the top level
 
     # structure -----------------------------------------------------------------
     def _split_blocks(self) -> list:
@@ -410,10 +411,7 @@ class _Elaborator:
         self._declare(b.body, inner, depth + 1, chain + (s.block,))
         self._pending.append((b.body, inner))
 
-    _pending: list
-
     def _build(self, stmts, scope: Scope):
-        self._pending = []
         self._build_scope(stmts, scope, top=True)
         i = 0
         while i < len(self._pending):
