@@ -92,7 +92,7 @@ def device_table(c: Circuit) -> dict[str, dict[str, float]]:
         if d.is_bjt:
             keys = DEVICE_COLUMNS["bjt"] + tuple(k for k in ("rx", "cpi", "cmu") if d.ss.get(k))
         elif d.is_mos:
-            keys = DEVICE_COLUMNS["mos"] + tuple(k for k in ("cgs", "cgd") if d.ss.get(k))
+            keys = ("gm", "ro") + tuple(k for k in ("gmb", "cgs", "cgd") if d.ss.get(k))
         else:
             keys = ("rd",)
         out[d.name] = {k: d.ss[k] for k in keys if k in d.ss}

@@ -63,7 +63,8 @@ def print_diagnostics(diags, stream=None) -> None:
                 sources[d.loc.file] = read_source(d.loc.file)
             except InputError:
                 sources[d.loc.file] = ""
-    for d in diags:
+    order = sorted(diags, key=lambda d: (d.loc is not None, d.loc and (d.loc.file, d.loc.line, d.loc.col)))
+    for d in order:
         print(d.format(sources), file=stream)
 
 

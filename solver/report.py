@@ -33,8 +33,8 @@ def eng(x: float, unit: str = "", digits: int = 4) -> str:
         return "0" + sep + unit
     e = int(math.floor(math.log10(abs(x)) / 3) * 3)
     e = max(-15, min(12, e))
-    if not unit and -3 <= e <= 3:
-        e = 0
+    if (not unit or "/" in unit) and -3 <= e <= 3 or unit in ("V/V", "A/A"):
+        e = 0  # ratios and plain numbers take no prefix
     m = x / 10 ** e
     text = f"{m:.{digits}g}"
     if "e" in text:
@@ -50,7 +50,7 @@ def fmt_quantity(name: str, z: complex, unit: str) -> str:
     if real:
         text = eng(z.real, u)
     else:
-        text = f"{eng(abs(z), u)} ∠ {math.degrees(cmath.phase(z)):.2f}°  ({eng(z.real)} {z.imag:+.4g}j)"
+        text = f"{eng(abs(z), u)} ∠ {math.degrees(cmath.phase(z)):.2f}°  ({z.real:.5g} {z.imag:+.4g}j)"
     if unit in ("V/V", "A/A") and z != 0:
         text += f"   {20 * math.log10(abs(z)):.2f} dB"
     return text
@@ -88,7 +88,10 @@ def solve_report(result, symbolic: dict | None = None) -> str:
     out = []
     out.append(c.title or c.file)
     f = result.frequency_hz
-    out.append(f"small-signal analysis at {'DC' if f == 0 else eng(f, 'Hz')}")
+    if f == 0 and not c.reactive:
+        out.append("small-signal analysis: no capacitors or inductors, the results hold at any frequency")
+    else:
+        out.append(f"small-signal analysis at {'DC' if f == 0 else eng(f, 'Hz')}")
     out.extend(result.notes)
     if c.devices:
         out.append("")
