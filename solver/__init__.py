@@ -7,8 +7,15 @@ The layers, in data-flow order: :mod:`solver.parse` (grammar -> statements),
 :mod:`solver.ports` (port quantities), :mod:`solver.report` and
 :mod:`solver.cli`. :func:`load`, :func:`loads` and :func:`solve` are the API.
 """
-from .api import Result, load, loads, solve
-from .diagnostics import InputError
-
-__all__ = ["load", "loads", "solve", "Result", "InputError"]
 __version__ = "0.1.0"
+__all__ = ["load", "loads", "solve", "Result", "InputError"]
+
+
+def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
+    if name in ("load", "loads", "solve", "Result"):
+        from . import api
+        return getattr(api, name)
+    if name == "InputError":
+        from .diagnostics import InputError
+        return InputError
+    raise AttributeError(name)
