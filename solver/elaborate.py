@@ -16,7 +16,7 @@ from . import expr as ex
 from . import units as U
 from .devices import BJT_QUANTITIES, DIODE_QUANTITIES, MOS_QUANTITIES, DeviceError, small_signal
 from .diagnostics import Diagnostics, InputError, Loc, error
-from .elements import CCCS, CCVS, VCCS, VCVS, Capacitor, Inductor, Nullor, Resistor
+from .elements import CCCS, CCVS, VCCS, VCVS, Capacitor, Inductor, Nullor, Resistor, VoltageSource
 from .model import Circuit, ClaimSpec, Device, Load, Signal, Supply
 from .netlist import BlockStart, Claim, ElementStmt, End, Ground, Let, Netlist, Output, Param, Title, Use
 
@@ -547,7 +547,9 @@ class _Elaborator:
             return
         v = self._value(s, entry)
         if kw == "supply":
-            c.supplies.append(Supply(full, nodes[0], "A" if v.dim == U.AMP else "V", v.x, s.loc))
+            kind = "A" if v.dim == U.AMP else "V"
+            short = VoltageSource(full, nodes[0], 0.0, None, full, s.loc) if kind == "V" else None
+            c.supplies.append(Supply(full, nodes[0], kind, v.x, s.loc, short))
             return
         if kw == "load":
             if not top:
@@ -597,6 +599,7 @@ class _Elaborator:
     def _finish(self, top: Scope):
         c = self.circuit
         by_name = {e.name: e for e in c.elements}
+        by_name.update({s.name: s.ss_element for s in c.supplies if s.ss_element is not None})
         for s, scope, el in self.element_entries:
             if isinstance(el, (CCCS, CCVS)):
                 ref = s.sense
@@ -608,6 +611,10 @@ class _Elaborator:
                 if target is None:
                     if entry is not None and entry.full == (c.load.name if c.load else None):
                         self.diags.error(ref.loc, "the load cannot be a sensing element; sense a resistor in series")
+                    elif entry is not None and any(s.name == entry.full for s in c.supplies):
+                        self.diags.error(ref.loc, f"current supply '{ref.name}' carries no signal current")
+                    elif entry is not None and c.signal and entry.full == c.signal.name:
+                        self.diags.error(ref.loc, "the signal cannot be a sensing element; sense a resistor in series")
                     else:
                         self.diags.error(ref.loc, f"'{ref.name}' is not a two-terminal element whose current can be sensed")
                     continue

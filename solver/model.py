@@ -47,6 +47,8 @@ class Supply:
     kind: str  # "V" | "A"
     value: float
     loc: Loc | None = None
+    #: the small-signal element: a 0 V source (a short) for a voltage supply, None (open) for a current one
+    ss_element: Element | None = None
 
 
 @dataclass

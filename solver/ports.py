@@ -37,9 +37,7 @@ class PortError(Exception):
 def small_signal_elements(c: Circuit) -> list[Element]:
     """Passive/controlled elements, supplies as shorts (V) or opens (A), and expanded devices."""
     out = list(c.elements)
-    for s in c.supplies:
-        if s.kind == "V":
-            out.append(VoltageSource(s.name, s.nodes, 0.0, None, s.name, s.loc))
+    out.extend(s.ss_element for s in c.supplies if s.ss_element is not None)
     for d in c.devices:
         out.extend(expand(d))
     return out
