@@ -512,7 +512,7 @@ def bias_small_signal(dev: Device) -> dict[str, float]:
                 "gmb": dev.params.get("gmb", 0.0), "cgs": dev.params.get("cgs", 0.0),
                 "cgd": dev.params.get("cgd", 0.0), "id": abs(dev.op["id"]), "vov": dev.op["vov"]}
     shadow = Device(dev.kind, dev.name, dev.nodes,
-                    {k: v for k, v in dev.params.items() if k not in ("k", "vth", "is", "beta_r", "n", "pmax")},
+                    {k: v for k, v in dev.params.items() if k not in ("k", "vth", "is", "beta_r", "pmax")},
                     dev.model, dev.loc, op=dev.op)
     if dev.is_bjt and dev.op["ic"] == 0:
         shadow.op = dict(dev.op, ic=1e-30)  # a device with no current at all: gm = 0 in effect
