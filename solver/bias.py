@@ -44,6 +44,7 @@ VNTOL = 1e-9            # volts: absolute step tolerance
 RELTOL = 1e-9           # relative step tolerance
 ABSTOL = 1e-15          # amperes: companion current mismatch tolerance
 TIE_OHMS = 1e12         # ties a node without a DC path to ground
+GMIN_KEEP = 1e-12       # siemens: the smallest gmin step, kept when gmin = 0 will not converge
 AMPLIFYING = {"bjt": "active", "mos": "saturation"}
 HIGH_NODE_VOLTS = 120.0  # IEC 61140 ripple-free d.c. extra-low-voltage limit (from memory)
 
@@ -425,17 +426,24 @@ def solve_bias(c: Circuit, strategy: str = "auto", max_iter: int = MAX_NEWTON) -
             return finish(o, "newton")
         tried.append(o)
     if strategy in ("auto", "gmin"):
-        u, ok = starts, True
+        u, last = starts, None
         for gmin in [10.0 ** -k for k in range(2, 13)] + [0.0]:
             o = _newton(linear, devs, c.ground, u, MAX_STEP_NEWTON, gmin)
             total += o.iterations
             if not o.converged:
-                ok = False
                 tried.append(o)
                 break
-            u = o.u
-        if ok:
-            return finish(o, "gmin stepping")
+            u, last = o.u, (o, gmin)
+        if last is not None and last[1] == 0.0:
+            return finish(last[0], "gmin stepping")
+        if last is not None and last[1] <= GMIN_KEEP:
+            # a node the device models leave undetermined (e.g. every device at it cut off):
+            # keep the last conductance and say so
+            r = finish(last[0], "gmin stepping")
+            r.notes.append(f"note: the bias point needed {last[1] * 1e12:g} pS from every node to ground "
+                           "to converge (a node is not fixed by the devices, e.g. all of them cut off "
+                           "there); treat the voltages of such nodes as undetermined.")
+            return r
     if strategy in ("auto", "source"):
         u, lam, step, ok = [d.start() * 0 for d in devs], 0.0, 0.1, False
         while step >= 1e-4:
