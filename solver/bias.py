@@ -551,7 +551,9 @@ def cautions(c: Circuit, res: BiasResult) -> list[str]:
         if pmax is not None and abs(d.op.get("power", 0.0)) > pmax:
             out.append(f"caution: {d.name} dissipates {d.op['power']:.4g} W, above its pmax={pmax:g} W.")
     high = [(n, v) for n, v in res.nodes.items() if abs(v) > HIGH_NODE_VOLTS]
-    if high:
+    # a high supply is flagged by solver.report.safety_notes; this catches stacked supplies
+    # and current supplies, whose voltage is only known after the bias solve
+    if high and not any(s.kind == "V" and abs(s.value) > HIGH_NODE_VOLTS for s in c.supplies):
         n, v = max(high, key=lambda kv: abs(kv[1]))
         out.append(f"caution: node {n} sits at {v:.4g} V, above the {HIGH_NODE_VOLTS:g} V d.c. "
                    "extra-low-voltage limit (IEC 61140): hazardous voltage, follow local codes.")

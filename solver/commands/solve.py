@@ -44,6 +44,6 @@ def run(args) -> int:
     else:
         if result.bias is not None:
             from ..biasreport import bias_lines
-            result.notes[:0] = [""] + bias_lines(c, result.bias)
+            result.notes[:0] = [""] + bias_lines(c, result.bias) + ([""] if result.notes else [])
         print(solve_report(result))
     return 0
