@@ -110,11 +110,8 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
     Raises InputError for a circuit that cannot be solved (e.g. singular).
     """
     c = circuit if isinstance(circuit, Circuit) else load(circuit)
-    bias = None
-    from .devices import needs_bias
-    if any(needs_bias(d) for d in c.devices):
-        from .bias import bias_circuit
-        bias = bias_circuit(c, force)
+    from .bias import ensure_bias
+    bias = ensure_bias(c, force)
     f = default_frequency(c) if at is None else float(at)
     try:
         pr = port_quantities(c, f)

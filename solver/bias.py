@@ -598,6 +598,17 @@ def bias_circuit(c: Circuit, force: bool = False) -> BiasResult:
     return res
 
 
+def ensure_bias(c: Circuit, force: bool = False) -> BiasResult | None:
+    """Run :func:`bias_circuit` when a device needs its bias solved; None when none does.
+
+    Every analysis that expands devices (port quantities, symbolic, sweeps)
+    calls this first, so a netlist given by DC parameters works everywhere.
+    """
+    if any(needs_bias(d) for d in c.devices):
+        return bias_circuit(c, force)
+    return None
+
+
 def to_json(res: BiasResult, c: Circuit) -> dict:
     """The ``portwise bias --json`` object (signed values for pnp and pmos)."""
     from .api import _num

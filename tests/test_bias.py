@@ -365,3 +365,55 @@ def test_every_bundled_example_converges_within_30_iterations(path):
     r = solve_bias(c)
     assert r.iterations <= 30
     assert r.method == "newton"
+
+
+def test_undetermined_node_keeps_a_small_gmin_and_says_so():
+    # every gate at 0 V: all of the pair's transistors are cut off and the load mirror's
+    # nodes are fixed by nothing but leakage; the solve keeps 1 pS and says so
+    text = """
+supply VDD (vdd, gnd) 5 V
+signal VS (g1, gnd) 1 mV, rs=50
+resistor RG (g1, gnd) 1M
+supply IB (vdd, nb) 100 uA
+nmos M3 (nb, nb, gnd) k=1 mA/V^2, vth=0.5 V
+nmos M4 (t, nb, gnd) k=2 mA/V^2, vth=0.5 V
+nmos M1 (d1, g1, t) k=2 mA/V^2, vth=0.5 V
+nmos M2 (d2, g1, t) k=2 mA/V^2, vth=0.5 V
+pmos M5 (d1, d1, vdd) k=1 mA/V^2, vth=-0.6 V
+pmos M6 (d2, d1, vdd) k=1 mA/V^2, vth=-0.6 V
+output (d2, gnd)
+"""
+    c, r = biased(text)
+    assert r.method == "gmin stepping"
+    assert any("1 pS from every node" in n for n in r.notes)
+    # the mirror's reference current, set by the supply alone: I = (k/2)(V_GS - V_th)^2
+    # (Sedra & Smith 7th ed., section 8.2, from memory)
+    vgs = 0.5 + math.sqrt(2 * 100e-6 / 1e-3)
+    assert r.nodes["nb"] == pytest.approx(vgs, rel=1e-6)
+    assert r.devices["M1"]["region"] == "cutoff"
+
+
+def test_bias_form_versus_exact_derivatives_of_the_model():
+    # the core's bias form (gm = I_C/V_T, ro = V_A/I_C) against the exact Jacobian of the
+    # Ebers–Moll model with the Early factor: gm agrees to the reverse-injection term, the
+    # exact output resistance is (V_A + V_CE)/I_C (Sedra & Smith 7th ed., 6.4, from memory)
+    from solver import dcmodels as dm
+    c, r = biased(FOUR.format(extra=", va=90 V"))
+    q, ss = r.devices["Q1"], c.devices[0].ss
+    m = dm.BJTModel(i_s=1e-15, beta_f=150.0, va=90.0, vt=VT)
+    p = dm.bjt(q["vbe"], q["vbe"] - q["vce"], m)
+    exact_gm = p.dic_dvbe + p.dic_dvbc  # at constant V_CE
+    exact_ro = 1 / -p.dic_dvbc  # at constant V_BE
+    assert ss["gm"] == pytest.approx(exact_gm, rel=1e-6)
+    assert exact_ro == pytest.approx((90 + q["vce"]) / q["ic"], rel=1e-6)
+    assert ss["ro"] == pytest.approx(90 / q["ic"], rel=1e-12)
+
+
+def test_inductor_is_a_short_in_the_dc_view():
+    # an RF choke as collector load: at DC it is a short, so V_C = V_CC and the four-resistor
+    # analysis of the emitter loop is unchanged (Sedra & Smith 7th ed., section 7.4, from memory)
+    text = FOUR.format(extra="").replace("resistor RC (vcc, c) 3k3", "inductor LC (vcc, c) 10 mH")
+    c, r = biased(text)
+    assert r.nodes["c"] == pytest.approx(12.0, abs=1e-12)
+    ref = biased(FOUR.format(extra=""))[1]
+    assert r.nodes["e"] == pytest.approx(ref.nodes["e"], rel=1e-6)  # V_CE enters only through V_BC
