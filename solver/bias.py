@@ -611,7 +611,6 @@ def ensure_bias(c: Circuit, force: bool = False) -> BiasResult | None:
 
 def to_json(res: BiasResult, c: Circuit) -> dict:
     """The ``portwise bias --json`` object (signed values for pnp and pmos)."""
-    from .api import _num
     keys = {"bjt": ("region", "ic", "ib", "vbe", "vce", "power"), "mos": ("region", "id", "vgs", "vds", "power"),
             "diode": ("region", "id", "vd", "power")}
     ss_keys = {"bjt": ("gm", "rpi", "ro"), "mos": ("gm", "ro"), "diode": ("rd",)}
@@ -624,3 +623,12 @@ def to_json(res: BiasResult, c: Circuit) -> dict:
         devices[d.name] = entry
     return {"nodes": {n: _num(v) for n, v in res.nodes.items()}, "devices": devices,
             "iterations": res.iterations}
+
+
+def _num(x: float):
+    """A JSON-safe number: infinities and NaN as strings, as the solve JSON writes them."""
+    if math.isinf(x):
+        return "inf" if x > 0 else "-inf"
+    if math.isnan(x):
+        return "nan"
+    return float(x)
