@@ -26,7 +26,7 @@ F. N. Najm, *Circuit Simulation*, Wiley 2010, chapter 5 (gmin and source steppin
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -581,11 +581,14 @@ def bias_circuit(c: Circuit, force: bool = False) -> BiasResult:
     amplifying region and ``force`` is false; with ``force`` the result's
     notes carry a warning instead.
     """
-    try:
-        res = solve_bias(c)
-    except BiasError as e:
-        raise InputError([Diagnostic("error", e.loc or Loc(c.file, 1, 1), str(e))]) from None
-    apply_bias(c, res)
+    if c.bias is None:  # a circuit does not change after elaboration: solve once
+        try:
+            res = solve_bias(c)
+        except BiasError as e:
+            raise InputError([Diagnostic("error", e.loc or Loc(c.file, 1, 1), str(e))]) from None
+        apply_bias(c, res)
+        c.bias = res
+    res = replace(c.bias, notes=list(c.bias.notes))
     bad = region_problems(c)
     if bad and not force:
         raise InputError([Diagnostic("error", d.loc, _region_text(d) + "; the small-signal model needs the "

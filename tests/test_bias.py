@@ -417,3 +417,13 @@ def test_inductor_is_a_short_in_the_dc_view():
     assert r.nodes["c"] == pytest.approx(12.0, abs=1e-12)
     ref = biased(FOUR.format(extra=""))[1]
     assert r.nodes["e"] == pytest.approx(ref.nodes["e"], rel=1e-6)  # V_CE enters only through V_BC
+
+
+def test_repeated_solves_reuse_the_bias_point():
+    c = solver.loads(FIXED.format(rb="47k", rc="4k7", extra=""))
+    a = solver.solve(c, force=True)
+    b = solver.solve(c, at=10e3, force=True)
+    assert b.bias.nodes == a.bias.nodes
+    assert sum("WARNING" in n for n in b.notes) == 1  # the region warning is not repeated
+    with pytest.raises(InputError):
+        solver.solve(c)  # without --force the region check still applies
