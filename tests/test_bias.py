@@ -427,3 +427,37 @@ def test_repeated_solves_reuse_the_bias_point():
     assert sum("WARNING" in n for n in b.notes) == 1  # the region warning is not repeated
     with pytest.raises(InputError):
         solver.solve(c)  # without --force the region check still applies
+
+
+def test_reverse_active_is_detected():
+    # collector and emitter exchanged: the collector junction is forward, the emitter junction
+    # reverse (Sedra & Smith 7th ed., section 6.1, from memory)
+    text = FOUR.format(extra="").replace("npn Q1 (c, b, e)", "npn Q1 (e, b, c)")
+    c, r = biased(text)
+    assert r.devices["Q1"]["region"] == "reverse"
+    with pytest.raises(InputError):
+        bias_circuit(solver.loads(text))
+
+
+def test_mosfet_supply_ramp_converges_from_cutoff_into_saturation():
+    regions = set()
+    for vdd in np.linspace(0.0, 20.0, 21):
+        c = solver.loads(MOS.format(extra=", lambda=0.02").replace("12 V", f"{float(vdd)!r} V"))
+        r = solve_bias(c)
+        assert r.iterations <= 30, vdd
+        regions.add(r.devices["M1"]["region"])
+    assert "cutoff" in regions and "saturation" in regions
+
+
+def test_forced_triode_mosfet_takes_the_exact_square_law_derivatives():
+    # in triode dI_D/dV_GS = k V_DS and dI_D/dV_DS = k (V_ov - V_DS) for λ = 0
+    # (Sedra & Smith 7th ed., section 5.2, from memory)
+    text = MOS.format(extra="").replace("resistor RD (vdd, d) 4k7", "resistor RD (vdd, d) 47k")
+    c = solver.loads(text)
+    res = bias_circuit(c, force=True)
+    m = res.devices["M1"]
+    assert m["region"] == "triode"
+    ss = c.devices[0].ss
+    vov = m["vgs"] - 1.0
+    assert ss["gm"] == pytest.approx(4e-3 * m["vds"], rel=1e-12)
+    assert ss["ro"] == pytest.approx(1 / (4e-3 * (vov - m["vds"])), rel=1e-12)
