@@ -533,7 +533,28 @@ def bias_small_signal(dev: Device) -> dict[str, float]:
 
 
 def apply_bias(c: Circuit, res: BiasResult) -> None:
-    """Fill dev.op for every device, and dev.ss and circuit.values for those that needed the bias."""
+    """Fill dev.op for every device, and dev.ss and circuit.values for those that needed the bias.
+
+    Parameters
+    ----------
+    c : Circuit
+        The circuit that ``res`` was solved for; changed in place.
+    res : BiasResult
+        From :func:`solve_bias`; its notes gain the power and voltage cautions.
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> c = loads('''supply VCC (vcc, gnd) 12 V
+    ... signal VS (b, gnd) 1 mV, rs=1k
+    ... resistor RB (vcc, b) 470k
+    ... resistor RC (vcc, c) 2k2
+    ... npn Q1 (c, b, gnd) beta=100
+    ... output (c, gnd)''')
+    >>> r = solve_bias(c); apply_bias(c, r)
+    >>> c.values["Q1.gm"] == c.devices[0].op["ic"] / thermal_voltage(300.0)
+    True
+    """
     for d in c.devices:
         d.op = dict(res.devices[d.name])
         if needs_bias(d):
@@ -577,9 +598,23 @@ def _region_text(d: Device) -> str:
 def bias_circuit(c: Circuit, force: bool = False) -> BiasResult:
     """Solve the bias, fill the devices, and check the regions (what ``portwise solve`` runs).
 
-    Raises InputError when the solve fails, or when a transistor is outside its
-    amplifying region and ``force`` is false; with ``force`` the result's
-    notes carry a warning instead.
+    Parameters
+    ----------
+    c : Circuit
+    force : bool
+        Accept transistors outside their amplifying region (the notes warn).
+
+    Returns
+    -------
+    BiasResult
+        A copy of the circuit's bias point whose notes carry the cautions and
+        any region warnings.
+
+    Raises
+    ------
+    InputError
+        The solve did not converge, or a transistor is outside its amplifying
+        region and ``force`` is false (one diagnostic per device, at its line).
     """
     if c.bias is None:  # a circuit does not change after elaboration: solve once
         try:
