@@ -145,7 +145,7 @@ class _BJT(_Nonlinear):
     def op(self, u):
         vce, vbe = (float(x) for x in u)
         p = dm.bjt(vbe, vbe - vce, self.m)
-        return {"region": dm.bjt_region(vbe, vbe - vce, self.pol), "ic": p.ic, "ib": p.ib,
+        return {"region": dm.bjt_region(vbe, vbe - vce, self.pol, self.m.i_s, self.m.vt), "ic": p.ic, "ib": p.ib,
                 "ie": -(p.ic + p.ib), "vbe": vbe, "vbc": vbe - vce, "vce": vce,
                 "power": p.ic * vce + p.ib * vbe}
 

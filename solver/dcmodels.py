@@ -134,12 +134,20 @@ def bjt(vbe: float, vbc: float, m: BJTModel) -> BJTPoint:
 
 # Region boundaries of Sedra & Smith (7th ed., section 6.1, from memory): the emitter
 # junction conducts from about 0.5 V; the transistor stays active while the collector
-# junction is forward biased by less than about 0.4 V. They assume a small-signal silicon part.
+# junction is forward biased by less than about 0.4 V. Those figures are for a small-signal
+# silicon part; taken as I_S = 1e-15 A at 300 K, they are moved with I_S and V_T so that they
+# stay at the same junction currents (common practice, no source).
 V_BE_ON = 0.5
 V_BC_SAT = 0.4
+_I_S_REF, _VT_REF = 1e-15, 0.025852
 
 
-def bjt_region(vbe: float, vbc: float, polarity: int = 1) -> str:
+def _threshold(v_ref: float, i_s: float, vt: float) -> float:
+    """The junction voltage carrying the current that ``v_ref`` carries for the reference part."""
+    return v_ref * vt / _VT_REF + vt * math.log(_I_S_REF / i_s)
+
+
+def bjt_region(vbe: float, vbc: float, polarity: int = 1, i_s: float = _I_S_REF, vt: float = _VT_REF) -> str:
     """'active', 'saturation', 'cutoff' or 'reverse' from the junction biases.
 
     Examples
@@ -148,9 +156,12 @@ def bjt_region(vbe: float, vbc: float, polarity: int = 1) -> str:
     ('active', 'saturation', 'cutoff', 'reverse')
     >>> bjt_region(-0.7, 5.0, polarity=-1)
     'active'
+    >>> bjt_region(0.45, -5.0), bjt_region(0.45, -5.0, i_s=1e-12)  # a larger junction conducts sooner
+    ('cutoff', 'active')
     """
     fe, fc = polarity * vbe, polarity * vbc
-    emitter_on, collector_on = fe >= V_BE_ON, fc > V_BC_SAT
+    emitter_on = fe >= _threshold(V_BE_ON, i_s, vt)
+    collector_on = fc > _threshold(V_BC_SAT, i_s, vt)
     if emitter_on and not collector_on:
         return "active"
     if emitter_on and collector_on:

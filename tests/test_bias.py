@@ -461,3 +461,13 @@ def test_forced_triode_mosfet_takes_the_exact_square_law_derivatives():
     vov = m["vgs"] - 1.0
     assert ss["gm"] == pytest.approx(4e-3 * m["vds"], rel=1e-12)
     assert ss["ro"] == pytest.approx(1 / (4e-3 * (vov - m["vds"])), rel=1e-12)
+
+
+def test_region_thresholds_follow_the_saturation_current():
+    # a large-area part (I_S = 1e-12 A) carries 100 µA at about 0.48 V: still active, not cut off;
+    # the 0.5 V / 0.4 V figures (Sedra & Smith 7th ed., 6.1, from memory) are for I_S near 1e-15 A
+    text = FIXED.format(rb="10M", rc="10k", extra=", is=1e-12")
+    c, r = biased(text)
+    q = r.devices["Q1"]
+    assert q["vbe"] < 0.5
+    assert q["region"] == "active"
