@@ -64,6 +64,8 @@ class Result:
     quantities: dict[str, complex]
     devices: dict[str, dict[str, float]] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
+    #: the DC operating point (solver.bias.BiasResult) when a device needed the bias solve
+    bias: object = None
 
     def to_json(self) -> dict:
         return {
@@ -99,16 +101,21 @@ def device_table(c: Circuit) -> dict[str, dict[str, float]]:
     return out
 
 
-def solve(circuit: Circuit | str | Path, at: float | None = None) -> Result:
+def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = False) -> Result:
     """Port quantities of a circuit at ``at`` hertz (default: 1 kHz if reactive, else DC).
 
+    A device given by its DC parameters (no ic/gm, id/gm) is first biased by
+    :func:`solver.bias.bias_circuit`; a transistor outside its amplifying region
+    is an InputError unless ``force`` (then the result's notes warn).
     Raises InputError for a circuit that cannot be solved (e.g. singular).
     """
     c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    from .bias import ensure_bias
+    bias = ensure_bias(c, force)
     f = default_frequency(c) if at is None else float(at)
     try:
         pr = port_quantities(c, f)
     except PortError as e:
         raise InputError([Diagnostic("error", Loc(c.file, 1, 1), f"{e} (a floating node, a loop of "
                                      "voltage sources or a cut set of current sources?)")]) from None
-    return Result(c, f, pr.quantities, device_table(c))
+    return Result(c, f, pr.quantities, device_table(c), list(bias.notes) if bias else [], bias)

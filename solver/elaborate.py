@@ -34,6 +34,10 @@ _DIODE_PARAMS = {"is": U.AMP, "n": U.ONE, "id": U.AMP, "rd": U.OHM, "cj": U.FARA
                  "pmax": U.WATT}
 
 
+class BiasPending(InputError):
+    """A value that depends on a device's bias point, asked for before the bias solve."""
+
+
 @dataclass(frozen=True)
 class Spec:
     """What a statement keyword takes: node counts per group, value unit(s), parameters."""
@@ -218,7 +222,8 @@ class Resolver:
                 return ex.Value(dev.params.get("gain", math.inf), U.ONE)
             if attr not in dev.ss:
                 if not dev.ss:
-                    raise error(entry.loc, f"{entry.full}.{attr} is not known before the bias solve")
+                    raise BiasPending(error(entry.loc, f"{entry.full}.{attr} is not known before the bias solve")
+                                      .diagnostics)
                 raise error(entry.loc, f"{entry.full} has no {attr} (not given and not derivable)")
             return ex.Value(dev.ss[attr], _QDIMS.get(attr))
         raise AssertionError(entry.kind)
@@ -453,7 +458,12 @@ class _Elaborator:
             elif isinstance(s, Let):
                 entry = scope.names.get(s.name)
                 if entry is not None and entry.loc == s.loc:
-                    self._guard(self.res.value_of, entry, None, s.loc)
+                    try:
+                        self.res.value_of(entry, None, s.loc)
+                    except BiasPending:
+                        pass  # depends on a bias point: evaluated when first used after the bias solve
+                    except InputError as e:
+                        self.diags.items.extend(e.diagnostics)
             elif isinstance(s, ElementStmt):
                 entry = scope.names.get(s.name)
                 if entry is None or entry.stmt is not s:
@@ -593,7 +603,11 @@ class _Elaborator:
             tol = t.x
         elif s.tolerance is not None:
             raise error(s.tolerance.loc, "an exact claim (=) takes no tolerance; use '~' for an approximate one")
-        ex.evaluate(s.value, self.res.lookup(scope))  # every name must resolve now
+        try:
+            ex.evaluate(s.value, self.res.lookup(scope))  # every name must resolve now
+        except BiasPending:
+            for r in ex.refs(s.value):  # the names must; bias-derived values come after the bias solve
+                self.res.resolve(r, scope)
         self.circuit.claims.append(ClaimSpec(s.quantity, s.kind, s.value, tol, s.loc, s.loc.line))
 
     def _finish(self, top: Scope):

@@ -104,6 +104,8 @@ class Circuit:
     warnings: list[Diagnostic] = field(default_factory=list)
     #: name resolution for claims and derived expressions (see solver.elaborate.Resolver)
     resolver: object = None
+    #: the DC operating point once solved (solver.bias.BiasResult), reused by later analyses
+    bias: object = None
 
     @property
     def output_port(self) -> tuple[str, str]:

@@ -10,6 +10,7 @@ _ENG = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9
 UNIT_TEXT = {"ohm": "Ω", "V/V": "V/V", "A/A": "A/A"}
 # IEC 61140 extra-low-voltage bands: 50 V a.c. rms, 120 V ripple-free d.c. (from memory)
 ELV_DC_VOLTS = 120.0
+ELV_AC_VOLTS = 50.0
 CAUTION = ("Small-signal results are linear estimates around one operating point, not a safety "
            "assessment. Mains and high-voltage work follows local codes and licensed practice.")
 
@@ -62,6 +63,12 @@ def safety_notes(c: Circuit) -> list[str]:
         if s.kind == "V" and abs(s.value) > ELV_DC_VOLTS:
             notes.append(f"caution: supply {s.name} is {s.value:g} V, above the {ELV_DC_VOLTS:g} V d.c. "
                          "extra-low-voltage limit (IEC 61140): hazardous voltage, follow local codes.")
+    sig = c.signal
+    if sig is not None and sig.kind == "V" and abs(sig.value) / math.sqrt(2) > ELV_AC_VOLTS:
+        # the signal's value is its amplitude (peak); the a.c. band is in rms
+        notes.append(f"caution: signal {sig.name} is {abs(sig.value):g} V peak ({abs(sig.value) / math.sqrt(2):.4g} V "
+                     f"rms), above the {ELV_AC_VOLTS:g} V a.c. extra-low-voltage limit (IEC 61140): hazardous "
+                     "voltage, follow local codes.")
     return notes
 
 

@@ -19,6 +19,8 @@ def add_arguments(p) -> None:
     p.add_argument("--at", metavar="FREQ", help="analysis frequency, e.g. 10kHz (default 1 kHz; DC "
                    "for a circuit without capacitors or inductors)")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
+    p.add_argument("--force", action="store_true", help="compute port quantities even when a bias-solved "
+                   "transistor is outside its amplifying region (the output warns)")
 
 
 def run(args) -> int:
@@ -27,10 +29,21 @@ def run(args) -> int:
     from .common import emit_json, frequency, print_warnings
     c = api.load(args.file)
     at = frequency(args.at) if args.at is not None else None
-    result = api.solve(c, at)
+    result = api.solve(c, at, force=args.force)
     print_warnings(c)
+    if result.bias is not None and result.bias.warnings:
+        from ..cli import print_diagnostics
+        print_diagnostics(result.bias.warnings)
     if args.json:
-        emit_json(result.to_json())
+        obj = result.to_json()
+        if result.bias is not None:
+            from ..bias import to_json
+            obj["bias"] = to_json(result.bias, c)
+            obj["notes"] = result.notes
+        emit_json(obj)
     else:
+        if result.bias is not None:
+            from ..biasreport import bias_lines
+            result.notes[:0] = [""] + bias_lines(c, result.bias) + ([""] if result.notes else [])
         print(solve_report(result))
     return 0
