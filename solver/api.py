@@ -100,15 +100,30 @@ def device_table(c: Circuit) -> dict[str, dict[str, float]]:
 
 
 def solve(circuit: Circuit | str | Path, at: float | None = None) -> Result:
-    """Port quantities of a circuit at ``at`` hertz (default: 1 kHz if reactive, else DC).
+    """Port quantities of a circuit at ``at`` hertz (default: the detected midband if reactive, else DC).
 
     Raises InputError for a circuit that cannot be solved (e.g. singular).
     """
     c = circuit if isinstance(circuit, Circuit) else load(circuit)
     f = default_frequency(c) if at is None else float(at)
+    notes = []
+    if at is None and c.reactive:  # the flat top of the main gain, not a fixed frequency (issue 5)
+        from .frequency import midband_frequency
+        fm = midband_frequency(c)
+        if fm is not None:
+            f = fm
+            notes.append(f"no --at given: evaluated at the detected midband frequency, {_eng_hz(f)} "
+                         "(the flattest point of the main gain)")
+        else:
+            notes.append(f"no --at given and no flat top found: evaluated at {_eng_hz(f)}")
     try:
         pr = port_quantities(c, f)
     except PortError as e:
         raise InputError([Diagnostic("error", Loc(c.file, 1, 1), f"{e} (a floating node, a loop of "
                                      "voltage sources or a cut set of current sources?)")]) from None
-    return Result(c, f, pr.quantities, device_table(c))
+    return Result(c, f, pr.quantities, device_table(c), notes)
+
+
+def _eng_hz(f: float) -> str:
+    from .report import eng
+    return eng(f, "Hz")
