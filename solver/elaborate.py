@@ -373,6 +373,7 @@ class _Elaborator:
                 self.ground.add(s.node.name)
         top = Scope("", None)
         self.res.top = top
+        self._pending = []  # instance bodies queued by _declare, built by _build (fix: was set too late)
         self._declare(top_stmts, top, depth=0)
         self._build(top_stmts, top)
         self._finish(top)
@@ -441,7 +442,6 @@ class _Elaborator:
     _pending: list
 
     def _build(self, stmts, scope: Scope):
-        self._pending = []
         self._build_scope(stmts, scope, top=True)
         i = 0
         while i < len(self._pending):

@@ -183,14 +183,46 @@ def default_quantity(c: Circuit) -> str:
 
 
 # --- evaluation over many frequencies ------------------------------------------------------------
-def _pattern(G: sp.csc_matrix, C: sp.csc_matrix):
-    """Common CSC pattern of G and C with both value arrays aligned to it (built once)."""
-    P = (abs(G) + abs(C)).tocsc()
-    P.sort_indices()
-    cols = np.repeat(np.arange(P.shape[1]), np.diff(P.indptr))
-    g = np.asarray(G.tocsr()[P.indices, cols]).ravel().astype(complex)
-    cv = np.asarray(C.tocsr()[P.indices, cols]).ravel().astype(complex)
-    return P.indices, P.indptr, g, cv
+class _SparseSweep:
+    """G and C on one common CSC pattern, with a fill-reducing column order chosen once.
+
+    The pattern, the value arrays and the ordering depend only on the circuit, so
+    they are built on the first call and reused for every frequency: each point
+    then costs one array update and one sparse LU.
+    """
+
+    def __init__(self, sys_: System):
+        from scipy.sparse.csgraph import reverse_cuthill_mckee
+        n = sys_.stamper.size
+        P = (abs(sys_.G) + abs(sys_.C)).tocsr()
+        # reverse Cuthill-McKee on the symmetrized pattern: MNA matrices are nearly structurally
+        # symmetric, and a banded order lets SuperLU skip its own ordering (natural order)
+        perm = reverse_cuthill_mckee((P + P.T).tocsr(), symmetric_mode=True)
+        self.perm = perm
+        self.inv = np.empty_like(perm)
+        self.inv[perm] = np.arange(n)
+        Gp = sys_.G.tocsr()[perm][:, perm].tocsc()
+        Cp = sys_.C.tocsr()[perm][:, perm].tocsc()
+        Pp = (abs(Gp) + abs(Cp)).tocsc()
+        Pp.sort_indices()
+        cols = np.repeat(np.arange(n), np.diff(Pp.indptr))
+        self.indices, self.indptr, self.n = Pp.indices, Pp.indptr, n
+        self.g = np.asarray(Gp.tocsr()[Pp.indices, cols]).ravel().astype(complex)
+        self.c = np.asarray(Cp.tocsr()[Pp.indices, cols]).ravel().astype(complex)
+        self.b = sys_.b.astype(complex)[perm]
+        self.spec = None  # "NATURAL" (banded order) or "COLAMD", fixed at the first point
+
+    def solve(self, s: complex) -> np.ndarray:
+        import scipy.sparse.linalg as spla
+        A = sp.csc_matrix((self.g + s * self.c, self.indices, self.indptr), shape=(self.n, self.n))
+        with np.errstate(all="ignore"):
+            if self.spec is None:  # keep whichever order fills in less
+                lus = {spec: spla.splu(A, permc_spec=spec) for spec in ("NATURAL", "COLAMD")}
+                self.spec = min(lus, key=lambda k: lus[k].L.nnz + lus[k].U.nnz)
+                lu = lus[self.spec]
+            else:
+                lu = spla.splu(A, permc_spec=self.spec)
+            return lu.solve(self.b)[self.inv]
 
 
 def solve_many(sys_: System, s: np.ndarray, dense: bool | None = None) -> np.ndarray:
@@ -225,13 +257,12 @@ def solve_many(sys_: System, s: np.ndarray, dense: bool | None = None) -> np.nda
         bad = ~np.all(np.isfinite(out), axis=1)
         out[bad] = np.nan
         return out
-    import scipy.sparse.linalg as spla
-    indices, indptr, g, cv = _pattern(sys_.G, sys_.C)
+    sweep = getattr(sys_, "_sparse_sweep", None)
+    if sweep is None:
+        sweep = sys_._sparse_sweep = _SparseSweep(sys_)
     for k, sv in enumerate(s):
-        A = sp.csc_matrix((g + sv * cv, indices, indptr), shape=(n, n))
         try:
-            with np.errstate(all="ignore"):
-                out[k] = spla.splu(A).solve(b)
+            out[k] = sweep.solve(sv)
         except RuntimeError:  # exactly singular at this point
             pass
     return out

@@ -41,6 +41,7 @@ from .model import Circuit
 from .ports import load_element, signal_elements, small_signal_elements
 
 UNLOADED = ("Avo", "Gvo", "Zto")
+MAX_CAPACITORS = 200
 
 
 @dataclass
@@ -140,6 +141,10 @@ def estimate(c: Circuit, quantity: str, midband_hz: float) -> Estimates:
     if not caps:
         for k in ("octc", "sctc", "miller"):
             est.reasons[k] = "no capacitors"
+        return est
+    if len(caps) > MAX_CAPACITORS:  # two solves per capacitor: a hand method for hand-sized circuits
+        for k in ("octc", "sctc", "miller"):
+            est.reasons[k] = f"more than {MAX_CAPACITORS} capacitors ({len(caps)}); no hand estimate"
         return est
     w_mid = 2 * math.pi * midband_hz
     names = {e.name for e in caps}
