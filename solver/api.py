@@ -126,4 +126,4 @@ def solve(circuit: Circuit | str | Path, at: float | None = None) -> Result:
 
 def _eng_hz(f: float) -> str:
     from .report import eng
-    return eng(f, "Hz")
+    return "DC" if f == 0 else eng(f, "Hz")

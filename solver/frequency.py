@@ -305,33 +305,66 @@ class Band:
         return self.f_high_hz - (self.f_low_hz or 0.0)
 
 
-def midband_index(freqs: np.ndarray, h: np.ndarray) -> int | None:
-    """Index of the flat top: among points within 3 dB of the largest magnitude, the flattest one.
-
-    Flatness is the log-log slope |d ln|H| / d ln f|; ties go to the geometric centre of the
-    flat run, so a band-pass response gets its middle, a low-pass its low end.
-    """
+def _flat_run(freqs: np.ndarray, h: np.ndarray) -> list[int] | None:
+    """Indices of the flat top: among points within 3 dB of the largest magnitude, the run of the
+    flattest ones (log-log slope |d ln|H| / d ln f| within 0.001 of the least)."""
     mag = np.abs(h)
     ok = np.isfinite(mag) & (mag > 0)
     if ok.sum() < 3:
         return None
     m = np.where(ok, mag, 0.0)
-    top = m.max()
-    near = ok & (m >= top / math.sqrt(2))
+    near = ok & (m >= m.max() / math.sqrt(2))
     lf, lm = np.log(freqs), np.log(np.where(ok, m, 1.0))
-    slope = np.abs(np.gradient(lm, lf))
-    slope = np.where(near, slope, np.inf)
-    best = slope.min()
-    flat = np.flatnonzero(near & (slope <= best + 1e-3))  # within 0.001 decade/decade of the flattest
-    # the contiguous run containing the first flattest point; pick its geometric middle
-    k0 = int(flat[0])
-    run = [k0]
+    slope = np.where(near, np.abs(np.gradient(lm, lf)), np.inf)
+    flat = np.flatnonzero(near & (slope <= slope.min() + 1e-3))
+    run = [int(flat[0])]
     for k in flat[1:]:
-        if k == run[-1] + 1:
-            run.append(int(k))
-        else:
+        if k != run[-1] + 1:
             break
+        run.append(int(k))
+    return run
+
+
+def midband_index(freqs: np.ndarray, h: np.ndarray) -> int | None:
+    """Index of the flat top: the geometric middle of the flattest run, or its end point when the
+    run reaches an end of the sweep (a low-pass is flattest at its lowest frequency)."""
+    run = _flat_run(freqs, h)
+    if run is None:
+        return None
+    if run[0] == 0:
+        return 0
+    if run[-1] == len(freqs) - 1:
+        return run[-1]
     return run[len(run) // 2]
+
+
+def flat_top(sc: Scenario, freqs: np.ndarray, h: np.ndarray) -> tuple[float, complex] | None:
+    """(frequency, value) of the midband: DC itself when the response is flat down to the bottom of
+    the sweep and finite at DC (a direct-coupled response), else the point from midband_index."""
+    k = midband_index(freqs, h)
+    if k is None:
+        return None
+    if k == 0:
+        h0 = complex(response(sc, np.array([0.0]))[0])
+        if np.isfinite(h0) and h0 != 0 and abs(abs(h0) / abs(h[0]) - 1) < 0.01:
+            return 0.0, h0
+        return float(freqs[0]), complex(h[0])
+    if k == len(freqs) - 1:
+        return float(freqs[k]), complex(h[k])
+    # an interior flat top is a maximum of |H| (zero slope): refine it between the neighbours
+    # (a resonant peak falls between sweep points)
+    from scipy.optimize import minimize_scalar
+    lo, hi = math.log10(freqs[k - 1]), math.log10(freqs[k + 1])
+
+    def neg(logf):
+        v = abs(response(sc, np.array([10.0 ** logf]))[0])
+        return -v if np.isfinite(v) else 0.0
+
+    r = minimize_scalar(neg, bounds=(lo, hi), method="bounded", options={"xatol": 1e-10})
+    if -r.fun > abs(h[k]):
+        f = 10.0 ** float(r.x)
+        return f, complex(response(sc, np.array([f]))[0])
+    return float(freqs[k]), complex(h[k])
 
 
 def band(sc: Scenario, freqs: np.ndarray, h: np.ndarray) -> Band | None:
@@ -340,10 +373,11 @@ def band(sc: Scenario, freqs: np.ndarray, h: np.ndarray) -> Band | None:
     Returns None when no flat top is found (too few finite points).
     """
     from scipy.optimize import brentq
-    k = midband_index(freqs, h)
-    if k is None:
+    top = flat_top(sc, freqs, h)
+    if top is None:
         return None
-    fm, hm = float(freqs[k]), complex(h[k])
+    fm, hm = top
+    k = min(int(np.searchsorted(freqs, fm)), len(freqs) - 1) if fm > 0 else 0
     target = abs(hm) / math.sqrt(2)
     mag = np.abs(h)
 
@@ -476,6 +510,5 @@ def midband_frequency(c: Circuit, f_from: float = 1e-2, f_to: float = 1e12) -> f
         return None
     sc = scenario(c, default_quantity(c))
     f = frequencies(f_from, f_to, per_decade=10)
-    h = response(sc, f)
-    k = midband_index(f, h)
-    return None if k is None else float(f[k])
+    top = flat_top(sc, f, response(sc, f))
+    return None if top is None else top[0]

@@ -86,5 +86,6 @@ def bode(freqs, h, fmt: str = "png", title: str = "", quantity: str = "Gv",
         fig.suptitle(title, fontsize=11)
     fig.tight_layout()
     buf = io.BytesIO()
-    fig.savefig(buf, format=fmt)
+    with matplotlib.rc_context({"svg.fonttype": "none"}):  # SVG text stays text (searchable, editable)
+        fig.savefig(buf, format=fmt)
     return buf.getvalue()

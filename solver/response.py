@@ -155,7 +155,7 @@ def text_report(sm: Summary) -> str:
         level = f"{db:.2f} dB" if db is not None else eng(abs(b.midband), unit)
         out.append(f"  midband         {level}  ∠ {math.degrees(cmath.phase(b.midband)):.1f}°   "
                    f"(|{sm.quantity}| = {eng(abs(b.midband), unit if unit != 'ohm' else 'Ω')} at "
-                   f"{eng(b.midband_hz, 'Hz')})")
+                   f"{'DC' if b.midband_hz == 0 else eng(b.midband_hz, 'Hz')})")
         out.append(f"  f_low  (-3 dB)  {_hz(b.f_low_hz)}")
         out.append(f"  f_high (-3 dB)  {_hz(b.f_high_hz)}")
         if b.bandwidth_hz is not None:
