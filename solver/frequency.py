@@ -242,9 +242,12 @@ def solve_many(sys_: System, s: np.ndarray, dense: bool | None = None) -> np.nda
         G = sys_.G.toarray().astype(complex)
         C = sys_.C.toarray().astype(complex)
         step = max(1, _BATCH_BYTES // (16 * n * n))
+        ri, ci = np.nonzero(C)  # only C's entries move with s: copy G, then add s*C there
+        cv = C[ri, ci]
         for k0 in range(0, s.size, step):
             sk = s[k0:k0 + step]
-            A = G[None, :, :] + sk[:, None, None] * C[None, :, :]
+            A = np.repeat(G[None, :, :], sk.size, axis=0)
+            A[:, ri, ci] += sk[:, None] * cv[None, :]
             try:
                 with np.errstate(all="ignore"):
                     out[k0:k0 + step] = np.linalg.solve(A, np.broadcast_to(b, (sk.size, n))[..., None])[..., 0]
