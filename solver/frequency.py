@@ -44,6 +44,8 @@ from .ports import load_element, signal_elements, small_signal_elements
 QUANTITIES = ("Gv", "Av", "Avo", "Gvo", "Rin", "Rout", "Ai", "Zt", "Zto")
 #: above this many unknowns the sweep uses sparse LU per point instead of batched dense solves
 DENSE_LIMIT = 150
+#: sparse systems whose bandwidth after reverse Cuthill-McKee is at most this use banded LU
+BAND_LIMIT = 40
 #: above this many unknowns poles and zeros are not computed (dense QZ is O(n^3))
 EIG_LIMIT = 600
 _BATCH_BYTES = 64 * 2 ** 20
@@ -211,8 +213,26 @@ class _SparseSweep:
         self.c = np.asarray(Cp.tocsr()[Pp.indices, cols]).ravel().astype(complex)
         self.b = sys_.b.astype(complex)[perm]
         self.spec = None  # "NATURAL" (banded order) or "COLAMD", fixed at the first point
+        # a chain-like circuit is banded after RCM: then LAPACK's banded LU (partial pivoting)
+        # does the same elimination without the general sparse bookkeeping
+        rows = Pp.indices
+        self.kl = int(max(0, (rows - cols).max(initial=0)))
+        self.ku = int(max(0, (cols - rows).max(initial=0)))
+        self.banded = self.kl + self.ku <= BAND_LIMIT
+        if self.banded:
+            self.band_index = (self.ku + rows - cols, cols)
 
     def solve(self, s: complex) -> np.ndarray:
+        if self.banded:
+            from scipy.linalg import LinAlgError, solve_banded
+            ab = np.zeros((self.kl + self.ku + 1, self.n), complex)
+            ab[self.band_index] = self.g + s * self.c
+            try:
+                with np.errstate(all="ignore"):
+                    x = solve_banded((self.kl, self.ku), ab, self.b, check_finite=False)
+            except LinAlgError:
+                raise RuntimeError("singular") from None
+            return x[self.inv]
         import scipy.sparse.linalg as spla
         A = sp.csc_matrix((self.g + s * self.c, self.indices, self.indptr), shape=(self.n, self.n))
         with np.errstate(all="ignore"):
@@ -225,10 +245,12 @@ class _SparseSweep:
             return lu.solve(self.b)[self.inv]
 
 
-def solve_many(sys_: System, s: np.ndarray, dense: bool | None = None) -> np.ndarray:
+def solve_many(sys_: System, s: np.ndarray, dense: bool | None = None,
+               banded: bool | None = None) -> np.ndarray:
     """Solutions x_k of (G + s_k C) x = b for every s_k, shape (len(s), n).
 
-    Singular points give rows of nan. ``dense`` forces the method (default: by size).
+    Singular points give rows of nan. ``dense`` forces the method (default: by size);
+    ``banded`` forces or forbids banded LU on the sparse path (default: by bandwidth).
     """
     n = sys_.stamper.size
     s = np.asarray(s, complex)
@@ -263,6 +285,8 @@ def solve_many(sys_: System, s: np.ndarray, dense: bool | None = None) -> np.nda
     sweep = getattr(sys_, "_sparse_sweep", None)
     if sweep is None:
         sweep = sys_._sparse_sweep = _SparseSweep(sys_)
+    if banded is not None:
+        sweep.banded = banded and sweep.kl + sweep.ku < sweep.n
     for k, sv in enumerate(s):
         try:
             out[k] = sweep.solve(sv)

@@ -139,8 +139,31 @@ def test_dense_and_sparse_paths_agree():
     c = load(CIRCUITS / "hydrophone_ce_stage.pw")
     sc = scenario(c, "Gv")
     s = 2j * np.pi * frequencies(1, 1e8, points=60)
-    assert np.allclose(solve_many(sc.system, s, dense=True), solve_many(sc.system, s, dense=False),
-                       rtol=1e-9, atol=1e-15)
+    ref = solve_many(sc.system, s, dense=True)
+    assert np.allclose(ref, solve_many(sc.system, s, dense=False, banded=True), rtol=1e-9, atol=1e-15)
+    assert np.allclose(ref, solve_many(sc.system, s, dense=False, banded=False), rtol=1e-9, atol=1e-15)
+
+
+def test_ladder_sparse_paths_match_the_line_closed_form():
+    # a uniform RC ladder of N sections driven from a source and open at the end: the output is
+    # 1/T_N with T the ABCD chain of N identical sections (Pozar, section 4.4, cascade of ABCD
+    # matrices, from memory); the circuit is large enough for the sparse and banded paths
+    n, r, c = 300, 10.0, 1e-9
+    lines = ["signal VS (n0, gnd) 1 V"]
+    for k in range(n):
+        lines += [f"resistor R{k} (n{k}, n{k + 1}) {r}", f"capacitor C{k} (n{k + 1}, gnd) {c}"]
+    lines.append(f"output (n{n}, gnd)")
+    sc = scenario(loads("\n".join(lines) + "\n"), "Gv")
+    assert sc.size > 300
+    f = frequencies(1e3, 1e7, points=7)
+    want = []
+    for x in f:
+        y = 2j * np.pi * x * c  # series R, then shunt C: [[1, R], [0, 1]] @ [[1, 0], [Y, 1]]
+        sec = np.array([[1 + r * y, r], [y, 1]])
+        want.append(1 / np.linalg.matrix_power(sec, n)[0, 0])
+    for banded in (True, False):
+        x = solve_many(sc.system, 2j * np.pi * f, dense=False, banded=banded)
+        assert np.allclose(sc.num(x), want, rtol=1e-8), banded
 
 
 # --- the CE stage: exact corners vs estimates ----------------------------------------------------
