@@ -113,7 +113,7 @@ def solve(circuit: Circuit | str | Path, at: float | None = None) -> Result:
         if fm is not None:
             f = fm
             notes.append(f"no --at given: evaluated at the detected midband frequency, {_eng_hz(f)} "
-                         "(the flattest point of the main gain)")
+                         "(the flat top of the main gain)")
         else:
             notes.append(f"no --at given and no flat top found: evaluated at {_eng_hz(f)}")
     try:

@@ -18,6 +18,7 @@ from .ports import UNITS
 from .timeconstants import Estimates, estimate
 
 GAINS = ("Gv", "Gvo", "Av", "Avo", "Ai", "Zt", "Zto")
+RATIOS = ("Gv", "Gvo", "Av", "Avo", "Ai")  # dimensionless: a gain-bandwidth product in Hz
 DEFINITIONS = {"Gv": "v_out/v_sig", "Gvo": "v_out/v_sig, no load", "Av": "v_out/v_in",
                "Avo": "v_out/v_in, no load", "Ai": "i_load/i_in", "Rin": "v_in/i_in",
                "Rout": "output impedance, load removed", "Zt": "v_out/i_sig", "Zto": "v_out/i_sig, no load"}
@@ -38,7 +39,7 @@ class Summary:
     @property
     def gbw_hz(self) -> float | None:
         b = self.band
-        if b is None or b.bandwidth_hz is None or self.quantity not in GAINS:
+        if b is None or b.bandwidth_hz is None or self.quantity not in RATIOS:
             return None
         return abs(b.midband) * b.bandwidth_hz
 
@@ -149,7 +150,7 @@ def text_report(sm: Summary) -> str:
            f"frequency response of {sm.quantity} = {DEFINITIONS[sm.quantity]}, "
            f"{eng(sm.freqs[0], 'Hz')} to {eng(sm.freqs[-1], 'Hz')}, {len(sm.freqs)} points", ""]
     if b is None:
-        out.append("no flat top found (too few finite points)")
+        out.append("no flat top found (the response is zero or not finite at most points)")
     else:
         db = _db(b.midband)
         level = f"{db:.2f} dB" if db is not None else eng(abs(b.midband), unit)
