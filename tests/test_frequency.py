@@ -24,11 +24,6 @@ from conftest import CIRCUITS
 TWO_PI = 2 * math.pi
 
 
-def rc_lowpass(r=1e3, c=100e-9):
-    return loads(f"signal VS (in, gnd) 1 V, rs={r}\ncapacitor C1 (out, gnd) {c}\n"
-                 f"resistor RW (in, out) 1m\noutput (out, gnd)\n")
-
-
 # --- first and second order vs scipy.signal.freqs ------------------------------------------------
 def test_first_order_rc_matches_freqs():
     # H(s) = 1/(1 + sRC) for a single-time-constant low-pass (Sedra & Smith, Microelectronic

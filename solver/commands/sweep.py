@@ -4,7 +4,7 @@ from __future__ import annotations
 HELP = "frequency response: midband, -3 dB corners, poles and zeros, hand estimates, Bode plot"
 DESCRIPTION = """\
 Evaluate one port quantity (default Gv) at log-spaced frequencies and summarize
-it: the midband level and phase (at the flattest point of the response), the
+it: the midband level and phase (at the flat top of the response), the
 -3 dB corners f_low and f_high (located by root finding between sweep points),
 bandwidth and gain-bandwidth product, the poles and zeros of the quantity
 (finite generalized eigenvalues of the MNA pencils, rad/s) and the designer's
@@ -61,6 +61,9 @@ def run(args) -> int:
         plot_fmt = Path(args.plot).suffix.lower().lstrip(".")
         if plot_fmt not in ("png", "svg"):
             raise error(None, "--plot: the file name ends in .png or .svg")
+    for out in (args.csv, args.plot):  # refuse before any work, so nothing is half written
+        if out and Path(out).exists() and not args.force:
+            raise error(None, f"'{out}' exists; use --force to replace it")
     c = api.load(args.file)
     quantity = args.quantity or default_quantity(c)
     freqs = frequencies(f_from, f_to, args.points, args.per_decade)
