@@ -49,6 +49,8 @@ BAND_LIMIT = 40
 #: above this many unknowns poles and zeros are not computed (dense QZ is O(n^3))
 EIG_LIMIT = 600
 _BATCH_BYTES = 64 * 2 ** 20
+#: a flat top has a log-log slope below this somewhere (0.25 = 5 dB/decade; common practice, no source)
+FLAT_SLOPE = 0.25
 
 
 class ResponseError(Exception):
@@ -343,6 +345,8 @@ def _flat_run(freqs: np.ndarray, h: np.ndarray) -> list[int] | None:
     near = ok & (m >= m.max() / math.sqrt(2))
     lf, lm = np.log(freqs), np.log(np.where(ok, m, 1.0))
     slope = np.where(near, np.abs(np.gradient(lm, lf)), np.inf)
+    if slope.min() > FLAT_SLOPE:  # e.g. an integrator: no flat top, so no midband or corners
+        return None
     flat = np.flatnonzero(near & (slope <= slope.min() + 1e-3))
     run = [int(flat[0])]
     for k in flat[1:]:

@@ -150,7 +150,8 @@ def text_report(sm: Summary) -> str:
            f"frequency response of {sm.quantity} = {DEFINITIONS[sm.quantity]}, "
            f"{eng(sm.freqs[0], 'Hz')} to {eng(sm.freqs[-1], 'Hz')}, {len(sm.freqs)} points", ""]
     if b is None:
-        out.append("no flat top found (the response is zero or not finite at most points)")
+        out.append("no flat top in the range (the response is nowhere flat, or zero or not finite): "
+                   "no midband and no corners")
     else:
         db = _db(b.midband)
         level = f"{db:.2f} dB" if db is not None else eng(abs(b.midband), unit)

@@ -383,3 +383,17 @@ def test_other_quantities_match_port_quantities():
         h = response(scenario(c, q), f)
         ref = [port_quantities(c, x).quantities[q] for x in f]
         assert np.allclose(h, ref, rtol=1e-9), q
+
+
+def test_integrator_has_no_flat_top(cli, netlist):
+    # an ideal inverting integrator, H = -1/(sRC), falls 20 dB/decade everywhere (Sedra & Smith,
+    # section 2.5, from memory): there is no midband, hence no corners; its one pole is at s = 0
+    p = netlist("signal VS (in, gnd) 1 V\nresistor R1 (in, m) 10k\ncapacitor C1 (m, out) 100n\n"
+                "opamp U1 (out, gnd, m)\nload RL (out, gnd) 10k\n")
+    r = cli("sweep", p, "--from", "1Hz", "--to", "1MHz", "--json")
+    assert r.returncode == 0, r.stderr
+    s = json.loads(r.stdout)["summary"]
+    assert s["midband_db"] is None and s["f_high_hz"] is None
+    assert s["poles"] == [{"re": 0.0, "im": 0.0}]
+    r = cli("solve", p)
+    assert r.returncode == 0 and "no flat top" in r.stdout
