@@ -66,13 +66,16 @@ class Result:
     notes: list[str] = field(default_factory=list)
 
     def to_json(self) -> dict:
-        return {
+        out = {
             "circuit": self.circuit.title or Path(self.circuit.file).stem,
             "frequency_hz": self.frequency_hz,
             "quantities": {k: {"re": _num(v.real), "im": _num(v.imag) if math.isfinite(v.real) else 0.0,
                                "unit": UNITS[k]} for k, v in self.quantities.items()},
             "devices": {name: {k: _num(v) for k, v in p.items()} for name, p in self.devices.items()},
         }
+        if self.notes:  # e.g. "evaluated at the detected midband frequency" (issue 5)
+            out["notes"] = list(self.notes)
+        return out
 
 
 def _num(x: float):

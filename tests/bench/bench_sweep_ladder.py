@@ -108,6 +108,18 @@ def main() -> None:
         first, last = abs(complex(pts[0]["re"], pts[0]["im"])), abs(complex(pts[-1]["re"], pts[-1]["im"]))
         b0, b1 = map(float, bare_out.split())
         print(f"  same answer: |H(f_from)| {first:.9g} vs {b0:.9g}, |H(f_to)| {last:.3e} vs {b1:.3e}")
+        # the sweep's own linear algebra, in this process: banded LU (chosen for this ladder) vs SuperLU
+        sys.path.insert(0, str(ROOT))
+        import numpy as np
+        from solver.api import load
+        from solver.frequency import frequencies, scenario, solve_many
+        sc = scenario(load(nested), "Gv")
+        s = 2j * np.pi * frequencies(F_FROM, F_TO, points=POINTS)
+        for banded in (True, False):
+            t = time.perf_counter()
+            solve_many(sc.system, s, dense=False, banded=banded)
+            print(f"  in-process solves, {'banded LU' if banded else 'SuperLU  '}      "
+                  f"{time.perf_counter() - t:7.2f} s")
         flat = Path(tmp) / "ladder_flat.pw"
         flat.write_text(flat_netlist())
         t_flat, _ = best_of(sweep[:4] + [str(flat)] + sweep[5:], runs=1, env=env)
