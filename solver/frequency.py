@@ -298,7 +298,17 @@ def solve_many(sys_: System, s: np.ndarray, dense: bool | None = None,
 
 
 def response(sc: Scenario, freqs: np.ndarray, dense: bool | None = None) -> np.ndarray:
-    """The quantity at every frequency (Hz) as a complex array; nan where the system is singular."""
+    """The quantity at every frequency (Hz) as a complex array; nan where the system is singular.
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> c = loads("signal VS (a, gnd) 1 V\\ncapacitor C1 (a, b) 1u\\nresistor R1 (b, gnd) 1k\\n"
+    ...           "output (b, gnd)\\n")
+    >>> h = response(scenario(c, "Gv"), np.array([1 / (2 * np.pi * 1e-3)]))
+    >>> complex(np.round(h[0], 6))
+    (0.5+0.5j)
+    """
     s = 2j * np.pi * np.asarray(freqs, float)
     x = solve_many(sc.system, s, dense)
     num = sc.num(x)
@@ -310,7 +320,20 @@ def response(sc: Scenario, freqs: np.ndarray, dense: bool | None = None) -> np.n
 
 
 def frequencies(f_from: float, f_to: float, points: int | None = None, per_decade: int | None = None):
-    """Log-spaced frequencies from f_from to f_to inclusive."""
+    """Log-spaced frequencies from f_from to f_to inclusive.
+
+    Parameters
+    ----------
+    f_from, f_to : float
+        Hz, 0 < f_from < f_to.
+    points : int, optional
+        Number of points in all; otherwise ``per_decade`` (default 20) per decade.
+
+    Examples
+    --------
+    >>> [round(float(f), 3) for f in frequencies(10, 1000, per_decade=2)]
+    [10.0, 31.623, 100.0, 316.228, 1000.0]
+    """
     if not (0 < f_from < f_to):
         raise ValueError("a log sweep needs 0 < from < to")
     if points is None:
@@ -401,7 +424,21 @@ def flat_top(sc: Scenario, freqs: np.ndarray, h: np.ndarray) -> tuple[float, com
 def band(sc: Scenario, freqs: np.ndarray, h: np.ndarray) -> Band | None:
     """Midband value and the -3 dB edges, located by root finding between sweep points.
 
-    Returns None when no flat top is found (too few finite points).
+    Returns None when no flat top is found (nowhere flat, or too few finite points).
+
+    References
+    ----------
+    R. P. Brent, *Algorithms for Minimization without Derivatives*, Prentice-Hall, 1973,
+    chapter 4 (the root finder behind scipy.optimize.brentq), from memory.
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> c = loads("signal VS (a, gnd) 1 V, rs=1k\\ncapacitor C1 (a, gnd) 1u\\noutput (a, gnd)\\n")
+    >>> sc = scenario(c, "Gv")
+    >>> f = frequencies(1, 1e5, per_decade=5)
+    >>> round(band(sc, f, response(sc, f)).f_high_hz, 6)
+    159.154943
     """
     from scipy.optimize import brentq
     top = flat_top(sc, freqs, h)
