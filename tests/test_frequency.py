@@ -397,3 +397,31 @@ def test_integrator_has_no_flat_top(cli, netlist):
     assert s["poles"] == [{"re": 0.0, "im": 0.0}]
     r = cli("solve", p)
     assert r.returncode == 0 and "no flat top" in r.stdout
+
+
+def test_cs_stage_octc_and_miller_against_textbook():
+    # CS stage, source grounded: R_gs = Rsig, R_gd = Rsig (1 + gm RL') + RL', OCTC
+    # f_H = 1/(2 pi (Cgs R_gs + Cgd R_gd)); Miller f_H = 1/(2 pi Rsig (Cgs + Cgd (1 + gm RL')))
+    # (Sedra & Smith, Microelectronic Circuits, 7th ed., sections 10.3 and 10.4, from memory)
+    rsig, gm, ro, rd, rl, cgs, cgd = 20e3, 2e-3, 50e3, 10e3, 20e3, 1e-12, 0.2e-12
+    ckt = loads(f"signal VS (g, gnd) 1 V, rs={rsig}\nnmos M1 (d, g, gnd) gm={gm}, ro={ro}, cgs={cgs}, cgd={cgd}\n"
+                f"resistor RD (d, gnd) {rd}\nload RL (d, gnd) {rl}\n")
+    rlp = 1 / (1 / ro + 1 / rd + 1 / rl)
+    sm = analyse(ckt, "Gv", frequencies(1e3, 1e10, per_decade=10))
+    e = sm.estimates
+    r_gd = rsig * (1 + gm * rlp) + rlp
+    assert {t.name: t.resistance for t in e.terms} == pytest.approx({"M1.cgs": rsig, "M1.cgd": r_gd}, rel=1e-9)
+    assert e.octc_f_high_hz == pytest.approx(1 / (TWO_PI * (cgs * rsig + cgd * r_gd)), rel=1e-9)
+    assert e.miller_f_high_hz == pytest.approx(1 / (TWO_PI * rsig * (cgs + cgd * (1 + gm * rlp))), rel=1e-9)
+    # exact transfer function (same source, section 10.4): denominator 1 + b1 s + b2 s^2 with
+    # b1 = Cgs Rsig + Cgd R_gd (the OCTC sum is exactly b1) and b2 = Rsig RL' Cgs Cgd; zero at +gm/Cgd
+    b1, b2 = cgs * rsig + cgd * r_gd, rsig * rlp * cgs * cgd
+    assert np.allclose(np.sort_complex(sm.poles), np.sort_complex(np.roots([b2, b1, 1.0])), rtol=1e-9)
+    assert sm.zeros == pytest.approx([gm / cgd], rel=1e-9)
+    # |Gv| at the exact f_H is midband - 3 dB (independent solve through solver.ports)
+    mid = abs(sm.band.midband)
+    assert mid == pytest.approx(gm * rlp, rel=1e-6)
+    assert abs(port_quantities(ckt, sm.band.f_high_hz).quantities["Gv"]) == pytest.approx(mid / math.sqrt(2),
+                                                                                          rel=1e-7)
+    # OCTC is close here (one dominant pole): error below 10 %
+    assert abs(sm.errors()["octc_f_high_hz"]) < 0.1
