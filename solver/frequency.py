@@ -47,7 +47,7 @@ DENSE_LIMIT = 150
 #: sparse systems whose bandwidth after reverse Cuthill-McKee is at most this use banded LU
 BAND_LIMIT = 40
 #: above this many unknowns poles and zeros are not computed (dense QZ is O(n^3))
-EIG_LIMIT = 600
+EIG_LIMIT = 300
 _BATCH_BYTES = 64 * 2 ** 20
 #: a flat top has a log-log slope below this somewhere (0.25 = 5 dB/decade; common practice, no source)
 FLAT_SLOPE = 0.25
@@ -470,7 +470,12 @@ def band(sc: Scenario, freqs: np.ndarray, h: np.ndarray) -> Band | None:
 
 # --- poles and zeros --------------------------------------------------------------------------
 def _finite_eigs(A: np.ndarray, B: np.ndarray) -> np.ndarray:
-    """Finite s with det(A + s B) = 0, via the QZ algorithm on a frequency-scaled pencil."""
+    """Finite s with det(A + s B) = 0, via the QZ algorithm on a frequency-scaled pencil.
+
+    An eigenvalue is finite when |beta| is not negligible against |alpha|, and it is kept
+    only when its eigenvector v makes (A + s B) v small against (|A| + |s| |B|) |v|:
+    that rejects the large spurious values that round-off makes of infinite eigenvalues.
+    """
     import scipy.linalg as sla
     if A.shape[0] == 0:
         return np.zeros(0, complex)
@@ -479,18 +484,17 @@ def _finite_eigs(A: np.ndarray, B: np.ndarray) -> np.ndarray:
         return np.zeros(0, complex)
     w0 = na / nb if na > 0 else 1.0  # s = w0 * z keeps the pencil entries of one size
     Bs = B * w0
-    w = sla.eigvals(A, -Bs, homogeneous_eigvals=True)
+    w, vr = sla.eig(A, -Bs, right=True, homogeneous_eigvals=True)
     alpha, beta = w[0], w[1]
+    norm_a, norm_b = np.linalg.norm(A, 1), np.linalg.norm(Bs, 1)
     out = []
-    scale = np.abs(A).max() + np.abs(Bs).max()
-    for a, b in zip(alpha, beta):
+    for k, (a, b) in enumerate(zip(alpha, beta)):
         if abs(b) <= 1e-9 * abs(a):  # infinite eigenvalue
             continue
         z = a / b
-        # confirm it: A + s B must be numerically singular there
-        M = A + z * Bs
-        sv = np.linalg.svd(M, compute_uv=False)
-        if sv[-1] <= 1e-7 * max(scale * max(1.0, abs(z)), 1e-300):
+        v = vr[:, k]
+        resid = np.linalg.norm((A + z * Bs) @ v, 1)
+        if resid <= 1e-8 * (norm_a + abs(z) * norm_b) * np.linalg.norm(v, 1):
             out.append(0j if abs(z) < 1e-10 else z * w0)  # a pole/zero at the origin
     return np.array(out, complex)
 
