@@ -269,6 +269,8 @@ def test_single_pole_opamp_closed_loop_bandwidth():
 
 
 def test_opamp_pole_options_are_checked(netlist, cli):
+    # bad input ends with exit 2 and a FILE:LINE:COL diagnostic (GNU Coding Standards, "Formatting
+    # Error Messages"; the project's rule)
     p = netlist("signal VS (in, gnd) 1 V\nopamp U1 (out, in, out) gain=1e5, fp=10, gbw=1MHz\n"
                 "load RL (out, gnd) 1k\n")
     r = cli("solve", p)
@@ -293,6 +295,7 @@ def test_solve_without_at_uses_midband_and_says_so(cli, ce):
 
 # --- the command line --------------------------------------------------------------------------
 def test_sweep_json_shape(cli):
+    # the JSON shape is the one the issue specifies (RFC 8259 JSON); poles in rad/s
     r = cli("sweep", CIRCUITS / "hydrophone_ce_stage.pw", "--from", "1Hz", "--to", "100MHz", "--points", "81",
             "--json")
     assert r.returncode == 0, r.stderr
@@ -320,6 +323,8 @@ def test_sweep_text_report_has_estimates_and_errors(cli):
 
 
 def test_sweep_csv_and_overwrite_refusal(cli, tmp_path):
+    # CSV as in RFC 4180 (header row, comma-separated); dB = 20 log10 |H| (IEC 60027-3, from memory);
+    # nothing the user wrote is overwritten without --force (the project's rule)
     out = tmp_path / "r.csv"
     args = ("sweep", CIRCUITS / "hydrophone_ce_stage.pw", "--from", "10Hz", "--to", "1MHz", "--points", "11",
             "--csv", out)
@@ -371,6 +376,7 @@ def test_plot_svg_has_the_expected_axes(cli, tmp_path):
     (("--from", "1 V", "--to", "1MHz"), "Hz"),
 ])
 def test_sweep_bad_input_exits_2(cli, args, message):
+    # user errors: exit 2 with a diagnostic, never a traceback (the project's rule)
     r = cli("sweep", CIRCUITS / "hydrophone_ce_stage.pw", *args)
     assert r.returncode == 2 and message in r.stderr and "Traceback" not in r.stderr
 

@@ -158,5 +158,6 @@ def test_reader_handles_other_formats():
     (("--at", "1 V"), "Hz"),
 ])
 def test_twoport_bad_input_exits_2(cli, args, message):
+    # user errors: exit 2 with a diagnostic, never a traceback (the project's rule)
     r = cli("twoport", CIRCUITS / "hydrophone_ce_stage.pw", *args)
     assert r.returncode == 2 and message in r.stderr and "Traceback" not in r.stderr
