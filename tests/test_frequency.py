@@ -431,3 +431,29 @@ def test_cs_stage_octc_and_miller_against_textbook():
                                                                                           rel=1e-7)
     # OCTC is close here (one dominant pole): error below 10 %
     assert abs(sm.errors()["octc_f_high_hz"]) < 0.1
+
+
+def test_block_instances_elaborate_and_sweep_like_the_flat_netlist():
+    # regression for the elaboration fix (instances were queued before the queue existed): a ladder
+    # written with a block equals the same ladder written flat (common practice, no source), and
+    # both equal the ABCD cascade 1/A of two RC sections (Pozar, section 4.4, from memory)
+    blocks = loads("signal VS (a, gnd) 1 V\nblock SEC (p, q)\n  resistor R (p, q) 1k\n"
+                   "  capacitor C (q, gnd) 10n\nend\nuse SEC X1 (a, m)\nuse SEC X2 (m, b)\noutput (b, gnd)\n")
+    flat = loads("signal VS (a, gnd) 1 V\nresistor R1 (a, m) 1k\ncapacitor C1 (m, gnd) 10n\n"
+                 "resistor R2 (m, b) 1k\ncapacitor C2 (b, gnd) 10n\noutput (b, gnd)\n")
+    f = frequencies(100, 1e6, points=9)
+    h = response(scenario(blocks, "Gv"), f)
+    assert np.allclose(h, response(scenario(flat, "Gv"), f), rtol=1e-12)
+    y = 2j * np.pi * f * 10e-9
+    a = (1 + 1e3 * y) ** 2 + 1e3 * y  # A of [[1 + RY, R], [Y, 1]] squared
+    assert np.allclose(h, 1 / a, rtol=1e-10)
+
+
+def test_sweep_report_carries_the_supply_caution(cli, netlist):
+    # supplies above the extra-low-voltage band get a caution (IEC 61140, 120 V ripple-free d.c.,
+    # from memory; the project's safety rule)
+    p = netlist("signal VS (in, gnd) 1 V, rs=1k\nsupply VHV (top, gnd) 300 V\nresistor R1 (in, top) 10k\n"
+                "capacitor C1 (in, gnd) 1n\noutput (in, gnd)\n")
+    r = cli("sweep", p, "--from", "1Hz", "--to", "10MHz")
+    assert r.returncode == 0, r.stderr
+    assert "caution" in r.stdout and "300 V" in r.stdout and "not a safety assessment" in r.stdout
