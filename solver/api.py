@@ -68,13 +68,16 @@ class Result:
     bias: object = None
 
     def to_json(self) -> dict:
-        return {
+        out = {
             "circuit": self.circuit.title or Path(self.circuit.file).stem,
             "frequency_hz": self.frequency_hz,
             "quantities": {k: {"re": _num(v.real), "im": _num(v.imag) if math.isfinite(v.real) else 0.0,
                                "unit": UNITS[k]} for k, v in self.quantities.items()},
             "devices": {name: {k: _num(v) for k, v in p.items()} for name, p in self.devices.items()},
         }
+        if self.notes:  # e.g. "evaluated at the detected midband frequency" (issue 5)
+            out["notes"] = list(self.notes)
+        return out
 
 
 def _num(x: float):
@@ -102,7 +105,7 @@ def device_table(c: Circuit) -> dict[str, dict[str, float]]:
 
 
 def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = False) -> Result:
-    """Port quantities of a circuit at ``at`` hertz (default: 1 kHz if reactive, else DC).
+    """Port quantities of a circuit at ``at`` hertz (default: the detected midband if reactive, else DC).
 
     A device given by its DC parameters (no ic/gm, id/gm) is first biased by
     :func:`solver.bias.bias_circuit`; a transistor outside its amplifying region
@@ -113,9 +116,24 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
     from .bias import ensure_bias
     bias = ensure_bias(c, force)
     f = default_frequency(c) if at is None else float(at)
+    notes = list(bias.notes) if bias else []
+    if at is None and c.reactive:  # the flat top of the main gain, not a fixed frequency (issue 5)
+        from .frequency import midband_frequency
+        fm = midband_frequency(c)
+        if fm is not None:
+            f = fm
+            notes.append(f"no --at given: evaluated at the detected midband frequency, {_eng_hz(f)} "
+                         "(the flat top of the main gain)")
+        else:
+            notes.append(f"no --at given and no flat top found: evaluated at {_eng_hz(f)}")
     try:
         pr = port_quantities(c, f)
     except PortError as e:
         raise InputError([Diagnostic("error", Loc(c.file, 1, 1), f"{e} (a floating node, a loop of "
                                      "voltage sources or a cut set of current sources?)")]) from None
-    return Result(c, f, pr.quantities, device_table(c), list(bias.notes) if bias else [], bias)
+    return Result(c, f, pr.quantities, device_table(c), notes, bias)
+
+
+def _eng_hz(f: float) -> str:
+    from .report import eng
+    return "DC" if f == 0 else eng(f, "Hz")

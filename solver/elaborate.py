@@ -59,7 +59,8 @@ SPECS = {
     "supply": Spec((2,), (U.VOLT, U.AMP), {}),
     "signal": Spec((2,), (U.VOLT, U.AMP), {"rs": U.OHM}),
     "load": Spec((2,), (U.OHM,), {}),
-    "opamp": Spec((3,), None, {"gain": U.ONE}, "OUT INP INN"),
+    # fp= (or gbw=) beside gain= makes a single-pole op-amp: A(s) = gain / (1 + s/(2 pi fp)) (issue 5)
+    "opamp": Spec((3,), None, {"gain": U.ONE, "fp": U.HERTZ, "gbw": U.HERTZ}, "OUT INP INN"),
     "npn": Spec((3,), None, _BJT_PARAMS, "C B E"),
     "pnp": Spec((3,), None, _BJT_PARAMS, "C B E"),
     "nmos": Spec(((3, 4),), None, _MOS_PARAMS, "D G S B"),
@@ -289,6 +290,33 @@ def _model_name(p: Param) -> str:
     raise error(v.loc, "model= is hybrid-pi or t")
 
 
+def _opamp_pole(s: ElementStmt, params: dict) -> float | None:
+    """The op-amp's pole frequency from fp= or gbw= (= gain * fp); None for a flat gain."""
+    where = {p.key: p.value.loc for p in s.params}
+    if "fp" in params and "gbw" in params:
+        raise error(where["gbw"], "give fp= (pole frequency) or gbw= (gain-bandwidth), not both")
+    key = "fp" if "fp" in params else "gbw" if "gbw" in params else None
+    if key is None:
+        return None
+    if "gain" not in params:
+        raise error(where[key], f"{key}= needs gain= (the DC open-loop gain)")
+    if not (params[key] > 0 and math.isfinite(params[key])):
+        raise error(where[key], f"{key} must be a positive frequency")
+    if not params["gain"] > 0:
+        raise error(where["gain"], "a single-pole op-amp needs a positive gain=")
+    return params["fp"] if key == "fp" else params["gbw"] / params["gain"]
+
+
+def _single_pole_opamp(full: str, nodes, gain: float, fp: float, loc) -> list:
+    """gain/(1 + s/wp) as primitives: 1 S into 1 Ω || 1/wp F (a unit pole), then a VCVS of the gain."""
+    out, inp, inn = nodes
+    pole = f"{full}:pole"
+    return [VCCS(f"{full}.gp", ("gnd", pole), 1.0, None, full, loc, ctrl=(inp, inn)),
+            Resistor(f"{full}.rp", (pole, "gnd"), 1.0, None, full, loc),
+            Capacitor(f"{full}.cp", (pole, "gnd"), 1.0 / (2 * math.pi * fp), None, full, loc),
+            VCVS(full, (out, "gnd"), gain, f"{full}.gain", full, loc, ctrl=(pole, "gnd"))]
+
+
 # ---------------------------------------------------------------------------------
 def elaborate(nl: Netlist) -> Circuit:
     """Build the :class:`Circuit` of a parsed netlist, or raise InputError with every problem found.
@@ -351,6 +379,7 @@ class _Elaborator:
                 self.ground.add(s.node.name)
         top = Scope("", None)
         self.res.top = top
+        self._pending = []  # instance bodies queued by _declare, built by _build (fix: was set too late)
         self._declare(top_stmts, top, depth=0)
         self._build(top_stmts, top)
         self._finish(top)
@@ -527,12 +556,15 @@ class _Elaborator:
             dev = self.res.device(entry)
             if kw == "opamp":
                 gain = dev.params.get("gain")
+                fp = _opamp_pole(s, dev.params)
                 if gain is None:
                     c.elements.append(Nullor(full, nodes[0], 0.0, None, full, s.loc))
-                else:
+                elif fp is None:
                     out, inp, inn = nodes[0]
                     c.elements.append(VCVS(full, (out, "gnd"), gain, f"{full}.gain", full, s.loc,
                                            ctrl=(inp, inn)))
+                else:
+                    c.elements.extend(_single_pole_opamp(full, nodes[0], gain, fp, s.loc))
                 return
             if kw in ("nmos", "pmos") and len(nodes[0]) == 4 and nodes[0][3] == nodes[0][2]:
                 del dev.nodes["B"]

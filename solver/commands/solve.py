@@ -16,8 +16,8 @@ example:
 
 def add_arguments(p) -> None:
     p.add_argument("file", help="netlist file (.pw)")
-    p.add_argument("--at", metavar="FREQ", help="analysis frequency, e.g. 10kHz (default 1 kHz; DC "
-                   "for a circuit without capacitors or inductors)")
+    p.add_argument("--at", metavar="FREQ", help="analysis frequency, e.g. 10kHz (default: the detected midband "
+                   "frequency; DC for a circuit without capacitors or inductors)")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
     p.add_argument("--force", action="store_true", help="compute port quantities even when a bias-solved "
                    "transistor is outside its amplifying region (the output warns)")

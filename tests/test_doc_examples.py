@@ -1,0 +1,14 @@
+"""The Examples sections of the frequency-response modules run and give what they say."""
+from __future__ import annotations
+
+import doctest
+import importlib
+
+import pytest
+
+
+@pytest.mark.parametrize("name", ["solver.frequency", "solver.timeconstants", "solver.twoport", "solver.plot"])
+def test_examples_run(name):
+    mod = importlib.import_module(name)
+    result = doctest.testmod(mod, optionflags=doctest.NORMALIZE_WHITESPACE)
+    assert result.attempted > 0 and result.failed == 0
