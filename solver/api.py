@@ -106,9 +106,11 @@ def solve(circuit: Circuit | str | Path, at: float | None = None) -> Result:
     """
     c = circuit if isinstance(circuit, Circuit) else load(circuit)
     f = default_frequency(c) if at is None else float(at)
+    from . import topology  # issue 6: name floating nodes, source loops and cut sets before solving
+    topology.require_sound(c, "dc" if f == 0 else "ac")
     try:
         pr = port_quantities(c, f)
     except PortError as e:
-        raise InputError([Diagnostic("error", Loc(c.file, 1, 1), f"{e} (a floating node, a loop of "
-                                     "voltage sources or a cut set of current sources?)")]) from None
+        raise InputError(topology.explain_singular(c, f, str(e))) from None
+    topology.warn_conditioning(c, f)
     return Result(c, f, pr.quantities, device_table(c))

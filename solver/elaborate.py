@@ -309,6 +309,8 @@ class _Elaborator:
         self.circuit.ground = self.ground
         self.element_entries: list[Entry] = []
         self.n_elements = 0
+        self.scopes: list[tuple[str, Scope]] = []  # (block name, instance scope)
+        self._pending: list = []  # (block body, instance scope), filled while declaring
 
     # structure -----------------------------------------------------------------
     def _split_blocks(self) -> list:
@@ -391,6 +393,7 @@ class _Elaborator:
                              f"({', '.join(p.name for p in ports)}), got {len(s.nodes)} nodes")
             return
         inner = Scope(scope.prefix + s.instance + ".", self.res.top)
+        self.scopes.append((s.block, inner))
         for p, n in zip(ports, s.nodes):
             if p.name in self.ground:
                 self.diags.error(p.loc, f"a port cannot be the reference node '{p.name}'")
@@ -413,7 +416,6 @@ class _Elaborator:
     _pending: list
 
     def _build(self, stmts, scope: Scope):
-        self._pending = []
         self._build_scope(stmts, scope, top=True)
         i = 0
         while i < len(self._pending):
@@ -558,6 +560,8 @@ class _Elaborator:
                 raise error(s.loc, f"a second load (the first is '{c.load.name}')")
             if v.x == 0:
                 raise error(s.value.loc, "a load of 0 Ω shorts the output")
+            if v.x < 0:
+                self.diags.warning(s.value.loc, f"negative load value ({v.x:g})")
             c.load = Load(full, nodes[0], v.x, s.loc)
             c.values[full] = v.x
             return
@@ -651,3 +655,16 @@ class _Elaborator:
         for name, e in top.names.items():
             if e.kind == "let" and not e.used:
                 self.diags.warning(e.loc, f"'{name}' is defined but never used")
+        # a let inside a block: unused when no instance of the block uses it
+        used: dict[tuple, bool] = {}
+        names: dict[tuple, tuple] = {}
+        for block, scope in self.scopes:
+            for name, e in scope.names.items():
+                if e.kind == "let":
+                    key = (block, name, e.loc)
+                    used[key] = used.get(key, False) or e.used
+                    names[key] = (block, name)
+        for key, u in used.items():
+            if not u:
+                block, name = names[key]
+                self.diags.warning(key[2], f"'{name}' in block '{block}' is defined but never used")

@@ -1,0 +1,425 @@
+"""Topology checks before any solve: mistakes that make the MNA system singular, named in netlist terms.
+
+Modified nodal analysis fails in a few structural ways, each with a plain
+graph reading (see the references):
+
+* a group of nodes with no path to the reference node (floating): nothing
+  fixes their potential;
+* a group connected to the rest only through current-defined branches (current
+  supplies, a current signal, vccs/cccs outputs, a transistor's gm): a *cut set*
+  of current sources, so Kirchhoff's current law on the cut cannot hold in
+  general and the potentials are undefined;
+* a *loop* of voltage-defined branches (voltage supplies, which are shorts in
+  the small-signal view, the voltage signal, vcvs/ccvs outputs, op-amp outputs,
+  inductors at DC): Kirchhoff's voltage law fixes the same voltage twice;
+* a node with a single connection (a warning: it carries no current, and is
+  usually a misspelt node name).
+
+Two views: the AC view (any frequency above zero: capacitors and inductors are
+impedances) and the DC view (capacitors open, inductors short), used by a solve
+at 0 Hz and by the bias solve.
+
+Policy for values (checked in :mod:`solver.elaborate`): a zero R or L is an
+error (it is a short: join the nodes), a zero C is an error (an open: leave it
+out), a zero load is an error; a negative R, C, L or load is allowed (active
+models use them) with a warning.
+
+References
+----------
+C.-W. Ho, A. E. Ruehli, P. A. Brennan, "The modified nodal approach to network
+analysis", IEEE Trans. Circuits and Systems 22(6), 1975 (from memory).
+L. O. Chua, P.-M. Lin, *Computer-Aided Analysis of Electronic Circuits*,
+Prentice-Hall 1975, chapter on the topological conditions for a unique
+solution: no loops of voltage sources, no cut sets of current sources (from memory).
+"""
+from __future__ import annotations
+
+import difflib
+from dataclasses import dataclass
+
+from .diagnostics import Diagnostic, Loc
+from .elements import Element, Nullor
+from .model import Circuit
+
+GND = "\0gnd"  # every reference-node alias maps here
+MAX_LISTED = 8
+
+
+@dataclass(frozen=True)
+class Branch:
+    """One element as the graph checks see it.
+
+    name   -- the name shown to the user (``R1``, ``Q1.gm``, ``VS``)
+    kind   -- "r" (an impedance), "v" (voltage-defined), "i" (current-defined)
+    nodes  -- the two nodes the branch joins
+    senses -- control terminals: they read a voltage and draw no current
+    """
+
+    name: str
+    kind: str
+    nodes: tuple[str, str]
+    loc: Loc | None
+    senses: tuple[str, ...] = ()
+
+
+def branches(elements: list[Element], ground: set[str], view: str = "ac") -> list[Branch]:
+    """The graph branches of primitive elements in the AC or the DC view.
+
+    Examples
+    --------
+    >>> from solver.elements import Capacitor, Resistor
+    >>> [b.kind for b in branches([Resistor("R1", ("a", "0"), 1.0), Capacitor("C1", ("a", "0"), 1.0)], {"0"})]
+    ['r', 'r']
+    >>> [b.name for b in branches([Capacitor("C1", ("a", "0"), 1.0)], {"0"}, view="dc")]
+    []
+    """
+    canon = (lambda n: GND if n in ground else n)  # noqa: E731
+    out = []
+    for e in elements:
+        kind = e.branch_kind
+        if e.reactive:
+            if view == "dc":
+                if kind == "r":
+                    continue  # a capacitor is open at DC
+            else:
+                kind = "r"  # capacitors and inductors are impedances at any frequency above zero
+        if isinstance(e, Nullor):
+            out_node, inp, inn = e.nodes
+            out.append(Branch(e.name, "v", (canon(out_node), GND), e.loc, (canon(inp), canon(inn))))
+            continue
+        senses = tuple(canon(n) for n in getattr(e, "ctrl", ()) or ())
+        out.append(Branch(e.name, kind, (canon(e.nodes[0]), canon(e.nodes[1])), e.loc, senses))
+    return out
+
+
+class _Sets:
+    """Union-find (disjoint sets) with path halving."""
+
+    def __init__(self):
+        self.parent: dict[str, str] = {}
+
+    def find(self, x: str) -> str:
+        p = self.parent
+        p.setdefault(x, x)
+        while p[x] != x:
+            p[x] = p[p[x]]
+            x = p[x]
+        return x
+
+    def union(self, a: str, b: str) -> bool:
+        ra, rb = self.find(a), self.find(b)
+        if ra == rb:
+            return False
+        self.parent[ra] = rb
+        return True
+
+
+def _show(node: str, circuit: Circuit) -> str:
+    if node == GND:
+        return "the reference node"
+    if node == "{sig}":
+        return f"the inner node of signal '{circuit.signal.name}'" if circuit.signal else "the signal's inner node"
+    return f"'{node}'"
+
+
+def _names(items, key=str) -> str:
+    items = list(items)
+    shown = ", ".join(key(x) for x in items[:MAX_LISTED])
+    return shown + (f" and {len(items) - MAX_LISTED} more" if len(items) > MAX_LISTED else "")
+
+
+def _label(b: Branch) -> str:
+    return f"{b.name} (line {b.loc.line})" if b.loc else b.name
+
+
+def _first_loc(bs, fallback: Loc) -> Loc:
+    locs = [b.loc for b in bs if b.loc is not None]
+    return min(locs, key=lambda l: (l.line, l.col)) if locs else fallback
+
+
+def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_nodes=(),
+                   context: str = "", single: bool = True) -> list[Diagnostic]:
+    """All graph checks on one set of branches; errors and warnings in netlist terms.
+
+    Parameters
+    ----------
+    bs : list of Branch
+    circuit : Circuit
+        For names and the fallback location.
+    view : "ac" or "dc"
+        Only changes the wording (the branches already reflect the view).
+    port_nodes : iterable of str
+        Nodes that a port observes: they count as one more connection and must exist.
+    context : str
+        Appended to each message (e.g. " without the load").
+    single : bool
+        Also warn about nodes with a single connection.
+
+    Returns
+    -------
+    list of Diagnostic
+    """
+    where = Loc(circuit.file, 1, 1)
+    dc = " in the DC view (capacitors open, inductors shorted)" if view == "dc" and circuit.reactive else ""
+    diags: list[Diagnostic] = []
+    ground = circuit.ground
+    ports = [GND if n in ground else n for n in port_nodes]
+
+    # 1. connections per node; a node that only a port observes does not exist in the system
+    touching: dict[str, list[Branch]] = {}
+    for b in bs:
+        for n in set(b.nodes) | set(b.senses):
+            touching.setdefault(n, []).append(b)
+    for n in dict.fromkeys(ports):
+        if n != GND and n not in touching:
+            diags.append(Diagnostic("error", circuit.output_loc or (circuit.load.loc if circuit.load else where),
+                                    f"port node {_show(n, circuit)} is not connected to any element{context}{dc}"))
+    if diags:
+        return diags
+
+    # 2. loops of voltage-defined branches
+    vsets, vadj = _Sets(), {}
+    for b in bs:
+        if b.kind != "v":
+            continue
+        a, c = b.nodes
+        if a == c or not vsets.union(a, c):
+            loop = [b] if a == c else _path(vadj, a, c) + [b]
+            diags.append(Diagnostic(
+                "error", b.loc or where,
+                f"a loop of voltage-defined branches{dc}: {_names(loop, _label)}; Kirchhoff's voltage law "
+                f"fixes the same voltage twice (add a resistance in the loop or remove one source){context}"))
+            continue
+        vadj.setdefault(a, []).append((c, b))
+        vadj.setdefault(c, []).append((a, b))
+
+    # 3. groups with no path to the reference, through impedances and voltage-defined branches
+    sets = _Sets()
+    sets.find(GND)
+    for b in bs:
+        for n in b.nodes + b.senses:
+            sets.find(n)
+        if b.kind != "i":
+            sets.union(*b.nodes)
+    groups: dict[str, list[str]] = {}
+    for n in list(sets.parent):
+        groups.setdefault(sets.find(n), []).append(n)
+    root = sets.find(GND)
+    for r, nodes in groups.items():
+        if r == root:
+            continue
+        members = set(nodes)
+        inner = [b for b in bs if b.kind != "i" and b.nodes[0] in members]
+        cut = [b for b in bs if b.kind == "i" and (b.nodes[0] in members) != (b.nodes[1] in members)]
+        sensed = [b for b in bs if members & set(b.senses) and b not in inner and b not in cut]
+        shown = _names(sorted(members), lambda n: _show(n, circuit))
+        what = "node" if len(members) == 1 else "nodes"
+        if cut:
+            msg = (f"{what} {shown} connect{'s' if len(members) == 1 else ''} to the rest of the circuit only "
+                   f"through current-defined branch{'es' if len(cut) > 1 else ''} {_names(cut, _label)}{dc}: a cut set of current sources leaves their voltage undefined "
+                   f"(add a resistance to the reference, e.g. a transistor's ro or a bias resistor){context}")
+            loc = _first_loc(cut, where)
+        elif inner:
+            msg = f"{what} {shown} have no path to the reference node{dc}{context}"
+            if len(members) == 1:
+                msg = msg.replace(" have ", " has ", 1)
+            msg += f" (joined by {_names(inner, _label)})"
+            loc = _first_loc(inner, where)
+        else:
+            msg = (f"{what} {shown} {'is' if len(members) == 1 else 'are'} only sensed by {_names(sensed, _label)}"
+                   f" (a control input draws no current): nothing sets {'its' if len(members) == 1 else 'their'}"
+                   f" voltage{dc}{context}")
+            loc = _first_loc(sensed, where)
+        diags.append(Diagnostic("error", loc, msg))
+
+    # 4. nodes with a single connection (warnings), with a spelling hint
+    if single:
+        busy = [n for n, t in touching.items() if len(t) + ports.count(n) >= 2 and n != GND]
+        for n, t in touching.items():
+            if n == GND or len(t) + ports.count(n) != 1 or n.startswith("{") or ":" in n:
+                continue
+            hint = difflib.get_close_matches(n, busy, n=1)
+            diags.append(Diagnostic(
+                "warning", t[0].loc or where,
+                f"node {_show(n, circuit)} has a single connection ({_label(t[0])}): no current flows "
+                f"through it{'; did you mean ' + repr(hint[0]) + '?' if hint else ''}"))
+    return diags
+
+
+def _path(adj: dict, a: str, b: str) -> list[Branch]:
+    """The branches on the (unique) path from a to b in a forest, by breadth-first search."""
+    prev = {a: None}
+    todo = [a]
+    while todo:
+        nxt = []
+        for n in todo:
+            for m, br in adj.get(n, ()):
+                if m not in prev:
+                    prev[m] = (n, br)
+                    nxt.append(m)
+        todo = nxt
+        if b in prev:
+            break
+    out = []
+    while prev.get(b):
+        b, br = prev[b]
+        out.append(br)
+    return out[::-1]
+
+
+def check(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
+    """Topology diagnostics of a circuit in the configurations the port analysis solves.
+
+    The loaded drive (signal and load) and, with a load, the unloaded drive are
+    checked; messages of the second say "without the load". Devices whose
+    operating point is not known yet are left out (the bias solve checks them).
+
+    Parameters
+    ----------
+    circuit : Circuit
+    view : "ac" or "dc"
+
+    Returns
+    -------
+    list of Diagnostic
+        Errors first, then warnings, without repeats.
+
+    Examples
+    --------
+    >>> from solver.api import loads
+    >>> c = loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nresistor R2 (c, d) 1k\\nload RL (a, gnd) 1k\\n")
+    >>> [d.message.split(":")[0] for d in check(c) if d.severity == "error"]
+    ["nodes 'c', 'd' have no path to the reference node (joined by R2 (line 3))"]
+    """
+    from .ports import load_element, signal_elements, small_signal_elements
+    if circuit.signal is None:
+        return []
+    base = small_signal_elements(circuit) if _biased(circuit) else _without_unbiased(circuit)
+    port_nodes = tuple(circuit.output_port) if (circuit.load or circuit.output) else ()
+    configs = []
+    if circuit.load is not None:
+        configs.append((base + signal_elements(circuit) + [load_element(circuit)], ""))
+        configs.append((base + signal_elements(circuit), " without the load"))
+    else:
+        configs.append((base + signal_elements(circuit), ""))
+    seen, errors, warnings = set(), [], []
+    for i, (elements, context) in enumerate(configs):
+        # single connections are a property of the netlist: counted once, in the AC view
+        found = check_branches(branches(elements, circuit.ground, view), circuit, view, port_nodes, context,
+                               single=False)
+        if i == 0:
+            found += [d for d in check_branches(branches(elements, circuit.ground, "ac"), circuit, "ac",
+                                                port_nodes, "", single=True) if d.severity == "warning"]
+        for d in found:
+            key = d.message.replace(context, "") if context else d.message
+            if key in seen:
+                continue
+            seen.add(key)
+            (errors if d.severity == "error" else warnings).append(d)
+        if errors:
+            break  # the loaded configuration's errors explain the unloaded ones
+    return errors + warnings
+
+
+def _biased(c: Circuit) -> bool:
+    return all(d.ss for d in c.devices)
+
+
+def _without_unbiased(c: Circuit) -> list[Element]:
+    from .devices import expand
+    from .elements import VoltageSource
+    out = list(c.elements)
+    for s in c.supplies:
+        if s.kind == "V":
+            out.append(VoltageSource(s.name, s.nodes, 0.0, None, s.name, s.loc))
+    for d in c.devices:
+        if d.ss:
+            out.extend(expand(d))
+    return out
+
+
+def require_sound(circuit: Circuit, view: str = "ac") -> None:
+    """Run :func:`check`; raise InputError with every error, keep warnings on the circuit.
+
+    Warnings are added to ``circuit.warnings`` once (the commands print them).
+    """
+    from .diagnostics import InputError
+    diags = check(circuit, view)
+    errors = [d for d in diags if d.severity == "error"]
+    if errors:
+        raise InputError(errors + [d for d in circuit.warnings + diags if d.severity == "warning"])
+    for d in diags:
+        if d not in circuit.warnings:
+            circuit.warnings.append(d)
+
+
+def _drive_systems(c: Circuit):
+    """(description, System) of the solves the port analysis makes, loaded one first."""
+    from .mna import assemble
+    from .ports import load_element, signal_elements, small_signal_elements
+    base = small_signal_elements(c)
+    if c.load is not None:
+        yield "with the load", assemble(base + signal_elements(c) + [load_element(c)], c.ground)
+    yield "without the load", assemble(base + signal_elements(c), c.ground)
+
+
+def _unknown(name: str, c: Circuit) -> str:
+    """``v(a)`` -> node 'a'; ``i(R1)`` -> the current of R1."""
+    inner = name[2:-1]
+    if name.startswith("v("):
+        return f"node {_show(inner, c)}"
+    return f"the current of {inner}"
+
+
+def explain_singular(c: Circuit, frequency_hz: float, what: str) -> list[Diagnostic]:
+    """Diagnostics for a system that the checks passed but that cannot be solved.
+
+    Names the unknowns no equation determines and the dependent equations, from
+    :func:`solver.mna.diagnose` (structural rank by bipartite matching, then the
+    null space), for the first configuration that is singular.
+    """
+    import math
+
+    from .mna import SingularSystem, diagnose
+    s = 2j * math.pi * frequency_hz
+    where = c.signal.loc if c.signal and c.signal.loc else Loc(c.file, 1, 1)
+    for desc, system in _drive_systems(c):
+        try:
+            system.solve(s)
+            continue
+        except SingularSystem:
+            pass
+        info = diagnose(system, s)
+        kind = "structurally singular (the pattern of connections alone)" if info.structural else \
+            "numerically singular (the element values cancel)"
+        msg = f"the circuit {desc} is {kind} at {frequency_hz:g} Hz: rank {info.rank} of {info.size}"
+        if info.undetermined:
+            msg += f"; undetermined: {_names(info.undetermined, lambda u: _unknown(u, c))}"
+        if info.redundant:
+            msg += f"; dependent equations: {_names(info.redundant, lambda u: 'KCL at ' + _unknown(u, c)[5:] if u.startswith('v(') else 'the law of ' + u[2:-1])}"
+        if not info.undetermined and not info.redundant:
+            msg += " (too large for the dense analysis that names the nodes)"
+        nodes = {u[2:-1] for u in info.undetermined if u.startswith("v(")}
+        near = [e.loc for e in system.stamper.elements if e.loc and nodes & set(e.nodes)]
+        return [Diagnostic("error", min(near, key=lambda l: (l.line, l.col)) if near else where, msg)]
+    return [Diagnostic("error", where, f"{what} (the system is singular at the output port test)")]
+
+
+def warn_conditioning(c: Circuit, frequency_hz: float) -> None:
+    """Warn (once, on ``circuit.warnings``) when the loaded system is ill-conditioned.
+
+    The threshold is :data:`solver.mna.COND_WARN` on the equilibrated matrix.
+    """
+    import math
+
+    from .mna import COND_WARN, condition_estimate
+    s = 2j * math.pi * frequency_hz
+    desc, system = next(iter(_drive_systems(c)))
+    cond = condition_estimate(system, s)
+    if cond > COND_WARN:
+        where = c.signal.loc if c.signal and c.signal.loc else Loc(c.file, 1, 1)
+        d = Diagnostic("warning", where, f"the system {desc} is ill-conditioned at {frequency_hz:g} Hz "
+                       f"(condition estimate {cond:.2g} > {COND_WARN:.0g}): results may have few correct "
+                       "digits; look for element values many decades apart or nearly cancelling")
+        if d not in c.warnings:
+            c.warnings.append(d)
