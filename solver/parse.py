@@ -17,7 +17,7 @@ from lark import Lark, Token, Transformer, v_args
 from lark.exceptions import UnexpectedCharacters, UnexpectedEOF, UnexpectedInput, UnexpectedToken, VisitError
 
 from . import expr as ex
-from .diagnostics import Diagnostics, InputError, Loc, error
+from .diagnostics import MAX_REPORTED, Diagnostics, InputError, Loc, error
 from .netlist import (BlockStart, Claim, ElementStmt, End, Ground, Let, Netlist, Node, Output,
                       Param, Title, Use)
 from .units import UnitError, parse_quantity
@@ -403,7 +403,10 @@ def _driver(start: str) -> _Driver:
 
 _EXPECT_NAMES = {"NAME": "a name", "QUANTITY": "a number", "_NL": "end of line", "LPAR": "'('",
                  "RPAR": "')'", "COMMA": "','", "EQUAL": "'='", "STRING": "a quoted string",
-                 "$END": "end of file"}
+                 "$END": "end of file", "ADD_OP": "'+' or '-'", "MUL_OP": "'*' or '/'", "POW_OP": "'^'",
+                 "PAR_OP": "'||'", "CLAIM_OP": "'=' or '~'", "DOT": "'.'", "WITHIN": "'within'",
+                 "VALUED_KW": "an element keyword", "CONTROLLED_KW": "an element keyword",
+                 "SENSED_KW": "an element keyword", "DEVICE_KW": "a device keyword"}
 
 
 def _describe(expected) -> str:
@@ -458,7 +461,6 @@ def _check_text(text: str, file: str, diags: Diagnostics) -> None:
 # C0 controls other than tab, newline, carriage return and form feed; DEL; C1 controls; surrogates
 _CONTROL = re.compile("[\x00-\x08\x0b\x0e-\x1f\x7f-\x9f\ud800-\udfff]")
 _LONG_LINE = re.compile(f"^[^\\n]{{{MAX_LINE_CHARS + 1}}}", re.M)  # tried at line starts only
-MAX_REPORTED = 50  # stop listing the same kind of problem after this many
 
 
 def parse(text: str, file: str = "<string>") -> Netlist:
