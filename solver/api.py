@@ -18,6 +18,7 @@ import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from .bulk import paused_gc
 from .diagnostics import Diagnostic, InputError, Loc, error
 from .elaborate import elaborate
 from .model import Circuit
@@ -47,7 +48,8 @@ def read_source(path: str | Path) -> str:
 
 def loads(text: str, file: str = "<string>") -> Circuit:
     """Parse and elaborate netlist text into a :class:`~solver.model.Circuit`."""
-    return elaborate(parse(text, file))
+    with paused_gc():  # issue 6: bulk building; see solver.bulk
+        return elaborate(parse(text, file))
 
 
 def load(path: str | Path) -> Circuit:
@@ -107,10 +109,11 @@ def solve(circuit: Circuit | str | Path, at: float | None = None) -> Result:
     c = circuit if isinstance(circuit, Circuit) else load(circuit)
     f = default_frequency(c) if at is None else float(at)
     from . import topology  # issue 6: name floating nodes, source loops and cut sets before solving
-    topology.require_sound(c, "dc" if f == 0 else "ac")
-    try:
-        pr = port_quantities(c, f)
-    except PortError as e:
-        raise InputError(topology.explain_singular(c, f, str(e))) from None
-    topology.warn_conditioning(c, f)
+    with paused_gc():
+        topology.require_sound(c, "dc" if f == 0 else "ac")
+        try:
+            pr = port_quantities(c, f)
+        except PortError as e:
+            raise InputError(topology.explain_singular(c, f, str(e))) from None
+        topology.warn_conditioning(c, f)
     return Result(c, f, pr.quantities, device_table(c))

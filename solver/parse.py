@@ -8,7 +8,6 @@ parsed again line by line, so every syntax error is reported in one run.
 from __future__ import annotations
 
 import functools
-import gc
 import re
 import threading
 from pathlib import Path
@@ -17,6 +16,7 @@ from lark import Lark, Token, Transformer, v_args
 from lark.exceptions import UnexpectedCharacters, UnexpectedEOF, UnexpectedInput, UnexpectedToken, VisitError
 
 from . import expr as ex
+from .bulk import paused_gc
 from .diagnostics import MAX_REPORTED, Diagnostics, InputError, Loc, error
 from .netlist import (BlockStart, Claim, ElementStmt, End, Ground, Let, Netlist, Node, Output,
                       Param, Title, Use)
@@ -532,18 +532,12 @@ def _run(start: str, text: str, file: str, fast: bool = False):
         _builder(parser).file = file
         try:
             if fast:
-                # The parse allocates a few objects per token, all kept: the cyclic garbage
-                # collector would rescan the growing heap again and again (about half the
-                # time of a large file) and find nothing, since the trees have no cycles.
-                enabled = gc.isenabled()
-                gc.disable()
+                # a few objects per token, all kept: see solver.bulk (about half the time otherwise)
                 try:
-                    return _driver(start).run(text)
+                    with paused_gc():
+                        return _driver(start).run(text)
                 except _Fallback:
                     pass
-                finally:
-                    if enabled:
-                        gc.enable()
             return parser.parse(text)
         except VisitError as e:
             if isinstance(e.orig_exc, InputError):

@@ -160,7 +160,7 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
     list of Diagnostic
     """
     where = Loc(circuit.file, 1, 1)
-    dc = " in the DC view (capacitors open, inductors shorted)" if view == "dc" and circuit.reactive else ""
+    dc = " in the DC view (capacitors open, inductors shorted)" if view == "dc" and _reactive(bs, circuit) else ""
     diags: list[Diagnostic] = []
     ground = circuit.ground
     ports = [GND if n in ground else n for n in port_nodes]
@@ -423,3 +423,8 @@ def warn_conditioning(c: Circuit, frequency_hz: float) -> None:
                        "digits; look for element values many decades apart or nearly cancelling")
         if d not in c.warnings:
             c.warnings.append(d)
+
+
+def _reactive(bs, circuit: Circuit) -> bool:
+    """Whether the DC wording matters: the circuit has capacitors or inductors (asked only in the DC view)."""
+    return circuit.reactive

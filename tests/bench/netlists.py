@@ -15,17 +15,18 @@ def rc_ladder(sections: int) -> str:
 def transistor_chain(stages: int) -> str:
     """``stages`` common-emitter stages, each a block instance coupled to the next.
 
-    Every stage has one npn with its bias given (ic, beta, va), collector and
-    emitter resistors, an emitter bypass capacitor and a coupling capacitor, so
-    the line mix resembles a hand-written netlist: blocks, parameters, lets.
+    Every stage has one npn with its bias given (ic, beta, va), a base bias
+    divider, collector and (unbypassed) emitter resistors of the same value, so
+    the stage gain is a little under -1 and a long chain stays within floating
+    point range, and a coupling capacitor; the line mix resembles a
+    hand-written netlist: blocks, parameters, lets.
     """
     lines = ['title "chain of gain stages"', "let RCC = 4k7", "let CC = 1 uF",
              "block stage (in, out) rc=RCC, ic=1 mA",
              "  npn Q (c, b, e) ic=ic, beta=150, va=80 V, cpi=10 pF, cmu=1 pF",
              "  resistor RB (b, gnd) 47k || 10k",
              "  resistor RC (c, gnd) rc",
-             "  resistor RE (e, gnd) 1k",
-             "  capacitor CE (e, gnd) 100 uF",
+             "  resistor RE (e, gnd) rc",
              "  capacitor CO (c, out) CC",
              "  resistor RX (in, b) 100",
              "end",
