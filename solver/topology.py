@@ -35,9 +35,9 @@ solution: no loops of voltage sources, no cut sets of current sources (from memo
 from __future__ import annotations
 
 import difflib
-from dataclasses import dataclass
+from typing import NamedTuple
 
-from .diagnostics import Diagnostic, Loc
+from .diagnostics import MAX_REPORTED, Diagnostic, Loc
 from .elements import Element, Nullor
 from .model import Circuit
 
@@ -45,8 +45,7 @@ GND = "\0gnd"  # every reference-node alias maps here
 MAX_LISTED = 8
 
 
-@dataclass(frozen=True)
-class Branch:
+class Branch(NamedTuple):
     """One element as the graph checks see it.
 
     name   -- the name shown to the user (``R1``, ``Q1.gm``, ``VS``)
@@ -141,6 +140,9 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
                    context: str = "", single: bool = True) -> list[Diagnostic]:
     """All graph checks on one set of branches; errors and warnings in netlist terms.
 
+    Linear in the number of branches (union-find, one pass per check), so it
+    costs about as much as stamping the circuit.
+
     Parameters
     ----------
     bs : list of Branch
@@ -165,13 +167,13 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
     ground = circuit.ground
     ports = [GND if n in ground else n for n in port_nodes]
 
-    # 1. connections per node; a node that only a port observes does not exist in the system
-    touching: dict[str, list[Branch]] = {}
+    # 1. a node that only a port observes does not exist in the system
+    present = {GND}
     for b in bs:
-        for n in set(b.nodes) | set(b.senses):
-            touching.setdefault(n, []).append(b)
+        present.update(b.nodes)
+        present.update(b.senses)
     for n in dict.fromkeys(ports):
-        if n != GND and n not in touching:
+        if n not in present:
             diags.append(Diagnostic("error", circuit.output_loc or (circuit.load.loc if circuit.load else where),
                                     f"port node {_show(n, circuit)} is not connected to any element{context}{dc}"))
     if diags:
@@ -195,53 +197,73 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
 
     # 3. groups with no path to the reference, through impedances and voltage-defined branches
     sets = _Sets()
-    sets.find(GND)
+    find = sets.find
+    for n in present:
+        find(n)
     for b in bs:
-        for n in b.nodes + b.senses:
-            sets.find(n)
         if b.kind != "i":
             sets.union(*b.nodes)
-    groups: dict[str, list[str]] = {}
-    for n in list(sets.parent):
-        groups.setdefault(sets.find(n), []).append(n)
-    root = sets.find(GND)
-    for r, nodes in groups.items():
-        if r == root:
-            continue
-        members = set(nodes)
-        inner = [b for b in bs if b.kind != "i" and b.nodes[0] in members]
-        cut = [b for b in bs if b.kind == "i" and (b.nodes[0] in members) != (b.nodes[1] in members)]
-        sensed = [b for b in bs if members & set(b.senses) and b not in inner and b not in cut]
-        shown = _names(sorted(members), lambda n: _show(n, circuit))
-        what = "node" if len(members) == 1 else "nodes"
-        if cut:
-            msg = (f"{what} {shown} connect{'s' if len(members) == 1 else ''} to the rest of the circuit only "
-                   f"through current-defined branch{'es' if len(cut) > 1 else ''} {_names(cut, _label)}{dc}: a cut set of current sources leaves their voltage undefined "
-                   f"(add a resistance to the reference, e.g. a transistor's ro or a bias resistor){context}")
-            loc = _first_loc(cut, where)
-        elif inner:
-            msg = f"{what} {shown} have no path to the reference node{dc}{context}"
-            if len(members) == 1:
-                msg = msg.replace(" have ", " has ", 1)
-            msg += f" (joined by {_names(inner, _label)})"
-            loc = _first_loc(inner, where)
-        else:
-            msg = (f"{what} {shown} {'is' if len(members) == 1 else 'are'} only sensed by {_names(sensed, _label)}"
-                   f" (a control input draws no current): nothing sets {'its' if len(members) == 1 else 'their'}"
-                   f" voltage{dc}{context}")
-            loc = _first_loc(sensed, where)
-        diags.append(Diagnostic("error", loc, msg))
+    root = find(GND)
+    members: dict[str, list[str]] = {}
+    for n in present:
+        r = find(n)
+        if r != root:
+            members.setdefault(r, []).append(n)
+    if members:
+        inner: dict[str, list[Branch]] = {}
+        cut: dict[str, list[Branch]] = {}
+        sensed: dict[str, list[Branch]] = {}
+        for b in bs:
+            ra, rb = find(b.nodes[0]), find(b.nodes[1])
+            if b.kind != "i":
+                if ra != root:
+                    inner.setdefault(ra, []).append(b)
+            elif ra != rb:
+                for r in {ra, rb} - {root}:
+                    cut.setdefault(r, []).append(b)
+            for r in {find(n) for n in b.senses} - {root, ra, rb}:
+                sensed.setdefault(r, []).append(b)
+        for r, nodes in list(members.items())[:MAX_REPORTED]:
+            shown = _names(sorted(nodes), lambda n: _show(n, circuit))
+            one = len(nodes) == 1
+            what = "node" if one else "nodes"
+            if r in cut:
+                c_ = cut[r]
+                msg = (f"{what} {shown} connect{'s' if one else ''} to the rest of the circuit only through "
+                       f"current-defined branch{'es' if len(c_) > 1 else ''} {_names(c_, _label)}{dc}: a cut set "
+                       f"of current sources leaves {'its' if one else 'their'} voltage undefined (add a "
+                       f"resistance to the reference, e.g. a transistor's ro or a bias resistor){context}")
+                loc = _first_loc(c_, where)
+            elif r in inner:
+                msg = (f"{what} {shown} {'has' if one else 'have'} no path to the reference node{dc}{context}"
+                       f" (joined by {_names(inner[r], _label)})")
+                loc = _first_loc(inner[r], where)
+            else:
+                s_ = sensed.get(r, [])
+                msg = (f"{what} {shown} {'is' if one else 'are'} only sensed by {_names(s_, _label)}"
+                       f" (a control input draws no current): nothing sets {'its' if one else 'their'}"
+                       f" voltage{dc}{context}")
+                loc = _first_loc(s_, where)
+            diags.append(Diagnostic("error", loc, msg))
 
     # 4. nodes with a single connection (warnings), with a spelling hint
     if single:
-        busy = [n for n, t in touching.items() if len(t) + ports.count(n) >= 2 and n != GND]
-        for n, t in touching.items():
-            if n == GND or len(t) + ports.count(n) != 1 or n.startswith("{") or ":" in n:
-                continue
-            hint = difflib.get_close_matches(n, busy, n=1)
+        count: dict[str, int] = {}
+        first: dict[str, Branch] = {}
+        for b in bs:
+            for n in {*b.nodes, *b.senses}:
+                count[n] = count.get(n, 0) + 1
+                first.setdefault(n, b)
+        for n in ports:
+            count[n] = count.get(n, 0) + 1
+        lonely = [n for n, k in count.items() if k == 1 and n != GND and not n.startswith("{") and ":" not in n]
+        busy = [n for n, k in count.items() if k >= 2 and n != GND] if len(lonely) <= MAX_REPORTED else []
+        for n in lonely[:MAX_REPORTED]:
+            b = first[n]
+            hint = difflib.get_close_matches(n, busy, n=1) if busy else []
             diags.append(Diagnostic(
-                "warning", t[0].loc or where,
-                f"node {_show(n, circuit)} has a single connection ({_label(t[0])}): no current flows "
+                "warning", b.loc or where,
+                f"node {_show(n, circuit)} has a single connection ({_label(b)}): no current flows "
                 f"through it{'; did you mean ' + repr(hint[0]) + '?' if hint else ''}"))
     return diags
 
@@ -306,8 +328,8 @@ def check(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
     for i, (elements, context) in enumerate(configs):
         # single connections are a property of the netlist: counted once, in the AC view
         found = check_branches(branches(elements, circuit.ground, view), circuit, view, port_nodes, context,
-                               single=False)
-        if i == 0:
+                               single=(i == 0 and view == "ac"))
+        if i == 0 and view != "ac":
             found += [d for d in check_branches(branches(elements, circuit.ground, "ac"), circuit, "ac",
                                                 port_nodes, "", single=True) if d.severity == "warning"]
         for d in found:
