@@ -238,6 +238,8 @@ class Resolver:
             if p.key == "model":
                 model = _model_name(p)
                 continue
+            if p.key not in spec.params:
+                continue  # reported by _check_shape; a reference (Q1.re) may get here first
             v = ex.evaluate(p.value, self.lookup(entry.scope))
             want = spec.params[p.key]
             if v.dim is not None and want is not None and v.dim != want:
