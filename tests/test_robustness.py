@@ -109,6 +109,26 @@ use follower X1 (c, x) rload=2k2
 load RL (x, gnd) 10k
 claim Av ~ -(RC || RL)/(Q1.re + RE1) within 10%
 """
+SEED2 = """\
+title "photodiode transimpedance front end"
+ground agnd
+let RF = 100k
+signal IS (pd, agnd) 1 uA
+opamp U1 (out, agnd, pd)
+resistor RF1 (pd, out) RF
+capacitor CF (pd, out) 2.2 pF
+resistor RSENSE (out, mid) 10
+ccvs H1 (buf, gnd) RSENSE 50
+cccs F1 (gnd, aux) RSENSE 2
+resistor RAUX (aux, gnd) 1k
+inductor L1 (buf, o2) 10 uH
+nmos M1 (o2, buf, gnd) id=1 mA, vov=0.3 V, lambda=0.02 /V
+diode D1 (mid, gnd) id=10 uA
+resistor RM (mid, gnd) 1k
+load RL (o2, gnd) 2k
+claim Zt ~ -RF within 50%
+"""
+SEEDS = [SEED, SEED2]
 TOKEN = re.compile(r"\s+|[(),=]|[^\s(),=]+")
 UNITS = ["", "k", "V", "A", "F", "H", "Ω", "Hz", "K", "mA", "%", "nF", "kK", "µ", "ohm"]
 
@@ -137,7 +157,7 @@ def assert_clean(code, err, path):
 
 @st.composite
 def mutants(draw):
-    toks = TOKEN.findall(SEED)
+    toks = TOKEN.findall(draw(st.sampled_from(SEEDS)))
     for _ in range(draw(st.integers(1, 4))):
         op = draw(st.sampled_from(["delete", "unit", "insert", "duplicate", "swap"]))
         i = draw(st.integers(0, len(toks) - 1))
