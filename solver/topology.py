@@ -340,7 +340,8 @@ def check(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
             (errors if d.severity == "error" else warnings).append(d)
         if errors:
             break  # the loaded configuration's errors explain the unloaded ones
-    return errors + warnings
+    by_line = lambda d: (d.loc.line, d.loc.col) if d.loc else (0, 0)  # noqa: E731
+    return sorted(errors, key=by_line) + sorted(warnings, key=by_line)
 
 
 def _biased(c: Circuit) -> bool:
