@@ -395,7 +395,7 @@ def _unknown(name: str, c: Circuit) -> str:
 
 
 def explain_singular(c: Circuit, frequency_hz: float, what: str) -> list[Diagnostic]:
-    """Diagnostics for a system that the checks passed but that cannot be solved.
+    """Diagnostics for a system that the checks passed but that cannot be solved (+ the circuit's warnings).
 
     Names the unknowns no equation determines and the dependent equations, from
     :func:`solver.mna.diagnose` (structural rank by bipartite matching, then the
@@ -424,8 +424,8 @@ def explain_singular(c: Circuit, frequency_hz: float, what: str) -> list[Diagnos
             msg += " (too large for the dense analysis that names the nodes)"
         nodes = {u[2:-1] for u in info.undetermined if u.startswith("v(")}
         near = [e.loc for e in system.stamper.elements if e.loc and nodes & set(e.nodes)]
-        return [Diagnostic("error", min(near, key=lambda l: (l.line, l.col)) if near else where, msg)]
-    return [Diagnostic("error", where, f"{what} (the system is singular at the output port test)")]
+        return [Diagnostic("error", min(near, key=lambda l: (l.line, l.col)) if near else where, msg)] + c.warnings
+    return [Diagnostic("error", where, f"{what} (the system is singular at the output port test)")] + c.warnings
 
 
 def warn_conditioning(c: Circuit, frequency_hz: float) -> None:

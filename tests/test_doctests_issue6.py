@@ -22,3 +22,10 @@ def test_demo_netlist_shows_each_planted_mistake(cli):
     assert ":14:1: error: nodes 'srcc', 'tap' have no path to the reference node" in r.stderr
     assert ":7:5: warning: 'CIN' is defined but never used" in r.stderr
     assert "did you mean 'src'?" in r.stderr
+
+
+def test_sign_slip_demo_names_the_node(cli):
+    r = cli("solve", "circuits/sign_slip.pw")
+    assert r.returncode == 2
+    assert "circuits/sign_slip.pw:4:1: error: the circuit with the load is numerically singular" in r.stderr
+    assert "undetermined: node 'a'" in r.stderr and ":5:22: warning: negative resistor value" in r.stderr
