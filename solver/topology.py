@@ -59,6 +59,7 @@ class Branch(NamedTuple):
     nodes: tuple[str, str]
     loc: Loc | None
     senses: tuple[str, ...] = ()
+    origin: str = ""  # the netlist element or device it came from
 
 
 def branches(elements: list[Element], ground: set[str], view: str = "ac") -> list[Branch]:
@@ -84,10 +85,10 @@ def branches(elements: list[Element], ground: set[str], view: str = "ac") -> lis
                 kind = "r"  # capacitors and inductors are impedances at any frequency above zero
         if isinstance(e, Nullor):
             out_node, inp, inn = e.nodes
-            out.append(Branch(e.name, "v", (canon(out_node), GND), e.loc, (canon(inp), canon(inn))))
+            out.append(Branch(e.name, "v", (canon(out_node), GND), e.loc, (canon(inp), canon(inn)), e.origin))
             continue
         senses = tuple(canon(n) for n in getattr(e, "ctrl", ()) or ())
-        out.append(Branch(e.name, kind, (canon(e.nodes[0]), canon(e.nodes[1])), e.loc, senses))
+        out.append(Branch(e.name, kind, (canon(e.nodes[0]), canon(e.nodes[1])), e.loc, senses, e.origin))
     return out
 
 
@@ -258,11 +259,12 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
             count[n] = count.get(n, 0) + 1
         lonely = [n for n, k in count.items() if k == 1 and n != GND and not n.startswith("{") and ":" not in n]
         busy = [n for n, k in count.items() if k >= 2 and n != GND] if len(lonely) <= MAX_REPORTED else []
+        at = _node_locs(circuit) if lonely else {}
         for n in lonely[:MAX_REPORTED]:
             b = first[n]
             hint = difflib.get_close_matches(n, busy, n=1) if busy else []
             diags.append(Diagnostic(
-                "warning", b.loc or where,
+                "warning", at.get((b.origin, n)) or b.loc or where,
                 f"node {_show(n, circuit)} has a single connection ({_label(b)}): no current flows "
                 f"through it{'; did you mean ' + repr(hint[0]) + '?' if hint else ''}"))
     return diags
@@ -451,3 +453,32 @@ def warn_conditioning(c: Circuit, frequency_hz: float) -> None:
 def _reactive(bs, circuit: Circuit) -> bool:
     """Whether the DC wording matters: the circuit has capacitors or inductors (asked only in the DC view)."""
     return circuit.reactive
+
+
+def _node_locs(c: Circuit) -> dict[tuple[str, str], Loc]:
+    """(element or device full name, node) -> where the node is written in its statement.
+
+    Read from the elaborated scopes (:class:`solver.elaborate.Resolver`), so that a
+    warning about a node can put its caret under the node name itself.
+    """
+    res = c.resolver
+    top = getattr(res, "top", None)
+    out: dict[tuple[str, str], Loc] = {}
+    if top is None:
+        return out
+    todo, seen = [top], set()
+    while todo:
+        scope = todo.pop()
+        if id(scope) in seen:
+            continue
+        seen.add(id(scope))
+        for entry in scope.names.values():
+            if entry.kind == "instance" and entry.scope is not None:
+                todo.append(entry.scope)
+            stmt = entry.stmt
+            if stmt is None or entry.scope is None:
+                continue
+            for group in getattr(stmt, "groups", ()):
+                for node in group:
+                    out.setdefault((entry.full, res.node(node, entry.scope)), node.loc)
+    return out

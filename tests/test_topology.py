@@ -75,8 +75,8 @@ def test_single_connection_is_a_warning_with_spelling_hint():
     c = api.loads("signal VS (in, gnd) 1 V, rs=50\nresistor R1 (in, out) 1k\nresistor R4 (outt, gnd) 1k\n"
                   "resistor R2 (outt, x) 1k\nload RL (out, gnd) 1k\n")
     api.solve(c)
-    w = [d.message for d in c.warnings]
-    assert any("'x' has a single connection (R2 (line 4))" in m for m in w)
+    w = [d for d in c.warnings if "'x' has a single connection (R2 (line 4))" in d.message]
+    assert len(w) == 1 and (w[0].loc.line, w[0].loc.col) == (4, 20)  # the caret goes under the node name
 
 
 def test_unloaded_configuration_checked():
