@@ -144,3 +144,32 @@ def test_cli_prints_every_error_with_caret(cli, netlist):
     heads = [l for l in r.stderr.splitlines() if ": error: " in l]
     assert len(heads) == 2 and heads[1].startswith(f"{p}:3:1: error: ")
     assert " resistor R2 (x, y) 1k\n ^~~~~~~~" in r.stderr
+
+
+def test_opamp_output_against_a_supply_is_a_loop():
+    msgs, _ = errors_of("signal VS (in, gnd) 1 V, rs=1k\nresistor R1 (in, gnd) 10k\nopamp U1 (out, in, fb)\n"
+                        "resistor RF (out, fb) 10k\nresistor RG (fb, gnd) 10k\nsupply V1 (out, gnd) 5 V\n"
+                        "load RL (out, gnd) 1k\n")
+    assert any("loop of voltage-defined branches" in m and "U1 (line 3)" in m and "V1 (line 6)" in m for m in msgs)
+
+
+def test_node_only_sensed_by_a_control_input():
+    msgs, _ = errors_of("signal VS (in, gnd) 1 V\nresistor R1 (in, out) 1k\nvccs G1 (out, gnd) (c, gnd) 1m\n"
+                        "load RL (out, gnd) 1k\n")
+    assert msgs == ["node 'c' is only sensed by G1 (line 3) (a control input draws no current): nothing sets "
+                    "its voltage"]
+
+
+def test_numeric_path_is_sparse_and_linear_in_size():
+    # a ladder's nodal matrix is tridiagonal: about 3 entries per node (sparse storage, CSC)
+    import scipy.sparse as sp
+    from solver.ports import signal_elements, small_signal_elements
+    sections = 3000
+    text = "signal VS (n0, gnd) 1 V, rs=50\n" + "".join(
+        f"resistor R{i} (n{i}, n{i + 1}) 1k\ncapacitor C{i} (n{i + 1}, gnd) 1 nF\n" for i in range(sections))
+    text += f"output (n{sections}, gnd)\n"
+    c = api.loads(text)
+    sys_ = assemble(small_signal_elements(c) + signal_elements(c), c.ground)
+    A = sys_.matrix(2j * np.pi * 1e3)
+    assert sp.issparse(A) and A.format == "csc" and sys_.G.format == "csc"
+    assert A.nnz <= 4 * sys_.stamper.size
