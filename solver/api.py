@@ -28,11 +28,15 @@ from .ports import UNITS, PortError, default_frequency, port_quantities
 
 def read_source(path: str | Path) -> str:
     """Read a netlist file as UTF-8; a bad byte is a diagnostic, not a traceback."""
+    from .parse import MAX_FILE_BYTES
     p = Path(path)
     try:
-        data = p.read_bytes()
+        with p.open("rb") as f:  # never more than the limit: a huge or endless file stops here
+            data = f.read(MAX_FILE_BYTES + 1)
     except OSError as e:
         raise error(None, f"cannot read '{path}': {e.strerror or e}") from None
+    if len(data) > MAX_FILE_BYTES:
+        raise error(Loc(str(path), 1, 1), f"file larger than {MAX_FILE_BYTES} bytes")
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError as e:

@@ -188,3 +188,22 @@ def test_write_file_missing_folder(tmp_path):
     with pytest.raises(InputError) as e:
         write_file(tmp_path / "no" / "such.s2p", "x")
     assert "does not exist" in e.value.diagnostics[0].message
+
+
+def test_endless_input_is_cut_at_the_size_limit(monkeypatch):
+    # /dev/zero never ends: reading stops after the limit instead of exhausting memory
+    monkeypatch.setattr(P, "MAX_FILE_BYTES", 1000)
+    with pytest.raises(InputError) as e:
+        api.read_source("/dev/zero")
+    assert "larger than 1000 bytes" in e.value.diagnostics[0].message
+
+
+def test_windows_line_endings_and_tabs(netlist):
+    p = netlist("signal\tVS (in, gnd) 1 V, rs=50\r\nresistor R1 (in, out) 1k\r\nload RL (out, gnd)\t1k\r\n")
+    r = api.solve(api.load(p))
+    assert abs(r.quantities["Gv"] - 1e3 / 2050) < 1e-12  # voltage divider 1k/(50 + 1k + 1k)
+
+
+def test_directory_is_not_a_netlist(tmp_path, cli):
+    r = cli("solve", tmp_path)
+    assert r.returncode == 2 and "cannot read" in r.stderr and "Traceback" not in r.stderr
