@@ -424,7 +424,14 @@ def _syntax_message(e: UnexpectedInput) -> str:
     if isinstance(e, UnexpectedToken):
         tok = e.token
         what = "end of line" if tok.type in ("_NL", "$END") else repr(str(tok))
-        return f"unexpected {what}; expected {_describe(e.expected)}"
+        expected = e.expected
+        ip = getattr(e, "interactive_parser", None)
+        if ip is not None:  # LALR merges states: ask the parser what it really takes here
+            try:
+                expected = ip.accepts() or expected
+            except Exception:  # noqa: BLE001 - the plain expected set is still right, only wider
+                pass
+        return f"unexpected {what}; expected {_describe(expected)}"
     return "syntax error"
 
 
