@@ -35,6 +35,7 @@ def test_format_has_source_line_and_caret_under_the_spot():
 def test_syntax_errors_of_several_lines_in_one_run():
     ds = diag_of("resistor R1 (a b) 1k\nsignal VS (a, gnd) 1 V\nnpn Q1 (a, b, gnd) ic=\nload RL (a, gnd) 1k\n")
     assert [(d.loc.line, d.loc.col) for d in ds] == [(1, 16), (3, 23)]
+    assert ds[0].message == "unexpected 'b'; expected ')', ','"  # no merged-state lookaheads
 
 
 def test_expected_tokens_are_readable():
