@@ -237,3 +237,61 @@ def test_fast_loop_matches_lark(frags, prefix):
         assert lark == fast
     else:
         assert fast == lark
+
+
+# --- random circuits of every element kind: a result or a clean diagnostic -------------------
+@st.composite
+def circuits(draw):
+    """Random wiring of every element kind; many are singular on purpose (floating, loops, cut sets)."""
+    nodes = ["n1", "n2", "n3", "n4", "gnd"]
+    node = st.sampled_from(nodes)
+    lines, resistors = [], []
+    sig = draw(st.sampled_from(["1 V", "1 V, rs=50", "1 uA", "1 uA, rs=10k"]))
+    lines.append(f"signal VS (n1, {draw(st.sampled_from(['gnd', 'n2']))}) {sig}")
+    for k in range(draw(st.integers(1, 9))):
+        kind = draw(st.sampled_from(["resistor", "capacitor", "inductor", "vccs", "vcvs", "cccs", "ccvs",
+                                     "supplyV", "supplyA", "npn", "pnp", "nmos", "diode", "opamp", "opampg"]))
+        a, b, c, d = (draw(node) for _ in range(4))
+        if kind == "resistor":
+            lines.append(f"resistor R{k} ({a}, {b}) {draw(st.sampled_from(['1k', '-1k', '10', '1e9']))}")
+            resistors.append(f"R{k}")
+        elif kind == "capacitor":
+            lines.append(f"capacitor C{k} ({a}, {b}) 1 nF")
+        elif kind == "inductor":
+            lines.append(f"inductor L{k} ({a}, {b}) 1 mH")
+        elif kind == "vccs":
+            lines.append(f"vccs G{k} ({a}, {b}) ({c}, {d}) 1 mS")
+        elif kind == "vcvs":
+            lines.append(f"vcvs E{k} ({a}, {b}) ({c}, {d}) 2")
+        elif kind in ("cccs", "ccvs"):
+            if resistors:
+                lines.append(f"{kind} {kind[:2].upper()}{k} ({a}, {b}) {draw(st.sampled_from(resistors))} "
+                             f"{'2' if kind == 'cccs' else '1k'}")
+        elif kind == "supplyV":
+            lines.append(f"supply V{k} ({a}, {b}) 9 V")
+        elif kind == "supplyA":
+            lines.append(f"supply I{k} ({a}, {b}) 1 mA")
+        elif kind in ("npn", "pnp"):
+            lines.append(f"{kind} Q{k} ({a}, {b}, {c}) ic=1 mA, beta=100{draw(st.sampled_from(['', ', va=50 V']))}")
+        elif kind == "nmos":
+            lines.append(f"nmos M{k} ({a}, {b}, {c}) id=1 mA, vov=0.2 V, ro=20k")
+        elif kind == "diode":
+            lines.append(f"diode D{k} ({a}, {b}) id=1 mA")
+        elif kind == "opamp":
+            lines.append(f"opamp U{k} ({a}, {b}, {c})")
+        else:
+            lines.append(f"opamp U{k} ({a}, {b}, {c}) gain=1e5")
+    out = draw(st.sampled_from(["n2", "n3", "n4"]))
+    lines.append(draw(st.sampled_from([f"load RL ({out}, gnd) 1k", f"output ({out}, gnd)"])))
+    return "\n".join(lines) + "\n"
+
+
+@settings(max_examples=120, **SETTINGS)
+@given(circuits(), st.sampled_from([None, "0", "1kHz"]))
+def test_random_circuits_end_in_a_result_or_a_diagnostic(tmp_path_factory, text, at):
+    path = tmp_path_factory.mktemp("c") / "rand.pw"
+    path.write_text(text, encoding="utf-8")
+    out, err = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+        code = C.main(["solve", str(path)] + (["--at", at] if at else []))
+    assert_clean(code, err.getvalue(), path)
