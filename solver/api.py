@@ -111,10 +111,11 @@ def solve(circuit: Circuit | str | Path, at: float | None = None) -> Result:
     Raises InputError for a circuit that cannot be solved (e.g. singular).
     """
     c = circuit if isinstance(circuit, Circuit) else load(circuit)
-    f = default_frequency(c) if at is None else float(at)
     from . import topology  # issue 6: name floating nodes, source loops and cut sets before solving
     with paused_gc():
-        topology.require_sound(c, "dc" if f == 0 else "ac")
+        # at=None gives 1 kHz for a reactive circuit and 0 Hz only when the two views agree
+        topology.require_sound(c, "dc" if at is not None and float(at) == 0 else "ac")
+        f = default_frequency(c) if at is None else float(at)
         try:
             pr = port_quantities(c, f)
         except PortError as e:

@@ -163,7 +163,7 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
     list of Diagnostic
     """
     where = Loc(circuit.file, 1, 1)
-    dc = " in the DC view (capacitors open, inductors shorted)" if view == "dc" and _reactive(bs, circuit) else ""
+    dc = " in the DC view (capacitors open, inductors shorted)" if view == "dc" and circuit.reactive else ""
     diags: list[Diagnostic] = []
     ground = circuit.ground
     ports = [GND if n in ground else n for n in port_nodes]
@@ -318,7 +318,7 @@ def check(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
     from .ports import load_element, signal_elements, small_signal_elements
     if circuit.signal is None:
         return []
-    base = small_signal_elements(circuit) if _biased(circuit) else _without_unbiased(circuit)
+    base = small_signal_elements(_biased_part(circuit))
     port_nodes = tuple(circuit.output_port) if (circuit.load or circuit.output) else ()
     configs = []
     if circuit.load is not None:
@@ -346,21 +346,12 @@ def check(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
     return sorted(errors, key=by_line) + sorted(warnings, key=by_line)
 
 
-def _biased(c: Circuit) -> bool:
-    return all(d.ss for d in c.devices)
-
-
-def _without_unbiased(c: Circuit) -> list[Element]:
-    from .devices import expand
-    from .elements import VoltageSource
-    out = list(c.elements)
-    for s in c.supplies:
-        if s.kind == "V":
-            out.append(VoltageSource(s.name, s.nodes, 0.0, None, s.name, s.loc))
-    for d in c.devices:
-        if d.ss:
-            out.extend(expand(d))
-    return out
+def _biased_part(c: Circuit) -> Circuit:
+    """The circuit without the devices whose operating point is not known yet (bias pending)."""
+    import dataclasses
+    if all(d.ss for d in c.devices):
+        return c
+    return dataclasses.replace(c, devices=[d for d in c.devices if d.ss])
 
 
 def require_sound(circuit: Circuit, view: str = "ac") -> None:
@@ -369,6 +360,15 @@ def require_sound(circuit: Circuit, view: str = "ac") -> None:
     Warnings are added to ``circuit.warnings`` once (the commands print them).
     """
     from .diagnostics import InputError
+    errors = []
+    for dev in circuit.devices:
+        if not dev.ss:  # the bias solve fills it; without one the model is unknown
+            what = {"npn": "ic=", "pnp": "ic=", "nmos": "id= and vov=", "pmos": "id= and vov="}.get(dev.kind, "id=")
+            errors.append(Diagnostic("error", dev.loc or Loc(circuit.file, 1, 1),
+                                     f"{dev.name} has no operating point, so its small-signal model is unknown: "
+                                     f"give {what} (or gm=), or solve the bias first"))
+    if errors:
+        raise InputError(errors + [d for d in circuit.warnings if d.severity == "warning"])
     diags = check(circuit, view)
     errors = [d for d in diags if d.severity == "error"]
     if errors:
@@ -449,10 +449,6 @@ def warn_conditioning(c: Circuit, frequency_hz: float) -> None:
         if d not in c.warnings:
             c.warnings.append(d)
 
-
-def _reactive(bs, circuit: Circuit) -> bool:
-    """Whether the DC wording matters: the circuit has capacitors or inductors (asked only in the DC view)."""
-    return circuit.reactive
 
 
 def _node_locs(c: Circuit) -> dict[tuple[str, str], Loc]:

@@ -250,7 +250,8 @@ def circuits(draw):
     lines.append(f"signal VS (n1, {draw(st.sampled_from(['gnd', 'n2']))}) {sig}")
     for k in range(draw(st.integers(1, 9))):
         kind = draw(st.sampled_from(["resistor", "capacitor", "inductor", "vccs", "vcvs", "cccs", "ccvs",
-                                     "supplyV", "supplyA", "npn", "pnp", "nmos", "diode", "opamp", "opampg"]))
+                                     "supplyV", "supplyA", "npn", "pnp", "nmos", "diode", "opamp", "opampg",
+                                     "unbiased"]))
         a, b, c, d = (draw(node) for _ in range(4))
         if kind == "resistor":
             lines.append(f"resistor R{k} ({a}, {b}) {draw(st.sampled_from(['1k', '-1k', '10', '1e9']))}")
@@ -277,6 +278,8 @@ def circuits(draw):
             lines.append(f"nmos M{k} ({a}, {b}, {c}) id=1 mA, vov=0.2 V, ro=20k")
         elif kind == "diode":
             lines.append(f"diode D{k} ({a}, {b}) id=1 mA")
+        elif kind == "unbiased":
+            lines.append(f"npn Q{k} ({a}, {b}, {c}) beta=100")
         elif kind == "opamp":
             lines.append(f"opamp U{k} ({a}, {b}, {c})")
         else:

@@ -173,3 +173,12 @@ def test_numeric_path_is_sparse_and_linear_in_size():
     A = sys_.matrix(2j * np.pi * 1e3)
     assert sp.issparse(A) and A.format == "csc" and sys_.G.format == "csc"
     assert A.nnz <= 4 * sys_.stamper.size
+
+
+def test_device_without_operating_point_is_a_clean_error():
+    # until a bias solve gives it one, a transistor without ic= (or gm=) has no small-signal model
+    msgs, diags = errors_of("signal VS (b, gnd) 1 mV, rs=1k\nnpn Q1 (c, b, gnd) beta=100\n"
+                            "resistor RC (c, gnd) 1k\nload RL (c, gnd) 1k\n")
+    assert msgs == ["Q1 has no operating point, so its small-signal model is unknown: give ic= (or gm=), "
+                    "or solve the bias first"]
+    assert diags[0].loc.line == 2
