@@ -2,8 +2,12 @@
 
 The grammar lives in ``grammar/portwise.lark``; the Transformer below has one
 small method per rule and builds our statement and expression dataclasses
-directly (no full parse tree is kept). A file that fails to parse as a whole is
-parsed again line by line, so every syntax error is reported in one run.
+directly, run by the parser as each rule is reduced (no parse tree is kept).
+A valid file goes through :class:`_Driver`, a lean loop over lark's own
+compiled tables (about three times lark's loop); anything else goes through
+lark's loop, and a file that fails as a whole is parsed again line by line, so
+every syntax error is reported in one run. Input limits (file size, line
+length, control characters, expression depth) are checked here too.
 """
 from __future__ import annotations
 
@@ -222,7 +226,14 @@ class _Driver:
 
     * a token whose terminal every rule filters out is pushed as ``None``;
     * a reduction by a ``?rule`` with one kept child keeps the child as it is
-      (exactly what lark's ``ExpandSingleChild`` returns).
+      (exactly what lark's ``ExpandSingleChild`` returns);
+    * the LR actions for a token depend only on the stack of states and the
+      terminal, so each (stack, terminal) transition is worked out once and
+      memoised (the callbacks to run and the stack after the shift);
+    * blanks between tokens are skipped by the match that finds the next token.
+
+    ``tests/test_robustness.py`` checks on random inputs that it returns what
+    lark's own loop returns, or gives up where lark raises.
 
     Any input it cannot take (a syntax error, a surprise) raises
     :class:`_Fallback`, and the caller runs lark's own parser on the same text,
