@@ -180,8 +180,9 @@ def test_write_file_is_atomic(tmp_path, monkeypatch):
     def fail(src, dst):
         raise OSError("disk full")
     monkeypatch.setattr(os, "replace", fail)
-    with pytest.raises(OSError):
+    with pytest.raises(InputError) as e:  # a clean diagnostic, exit 2
         write_file(p, b"new", force=True)
+    assert "cannot write" in e.value.diagnostics[0].message and "disk full" in e.value.diagnostics[0].message
     assert p.read_bytes() == b"old" and sorted(os.listdir(tmp_path)) == ["plot.png"]  # no temp left
 
 
@@ -208,3 +209,9 @@ def test_windows_line_endings_and_tabs(netlist):
 def test_directory_is_not_a_netlist(tmp_path, cli):
     r = cli("solve", tmp_path)
     assert r.returncode == 2 and "cannot read" in r.stderr and "Traceback" not in r.stderr
+
+
+def test_write_file_refuses_a_folder(tmp_path):
+    with pytest.raises(InputError) as e:
+        write_file(tmp_path, "x", force=True)
+    assert "is a folder" in e.value.diagnostics[0].message
