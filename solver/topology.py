@@ -357,7 +357,29 @@ def _biased_part(c: Circuit) -> Circuit:
 def require_sound(circuit: Circuit, view: str = "ac") -> None:
     """Run :func:`check`; raise InputError with every error, keep warnings on the circuit.
 
+    Parameters
+    ----------
+    circuit : Circuit
+    view : "ac" or "dc"
+        "dc" for a solve at 0 Hz and for the bias solve, "ac" otherwise.
+
+    Raises
+    ------
+    InputError
+        With every error (and the circuit's warnings), in line order. Devices
+        without an operating point are reported first, on their own.
+
+    Notes
+    -----
     Warnings are added to ``circuit.warnings`` once (the commands print them).
+
+    Examples
+    --------
+    >>> from solver.api import loads
+    >>> c = loads("signal VS (a, gnd) 1 V\nresistor R1 (a, b) 1k\nload RL (a, gnd) 1k\n")
+    >>> require_sound(c)
+    >>> [d.message.split(" (")[0] for d in c.warnings]
+    ["node 'b' has a single connection"]
     """
     from .diagnostics import InputError
     errors = []
@@ -402,6 +424,19 @@ def explain_singular(c: Circuit, frequency_hz: float, what: str) -> list[Diagnos
     Names the unknowns no equation determines and the dependent equations, from
     :func:`solver.mna.diagnose` (structural rank by bipartite matching, then the
     null space), for the first configuration that is singular.
+
+    Parameters
+    ----------
+    c : Circuit
+    frequency_hz : float
+        The analysis frequency the solve failed at.
+    what : str
+        The port analysis' own message, used when no drive configuration is singular.
+
+    Returns
+    -------
+    list of Diagnostic
+        One error, located at the first element on an undetermined node, then the warnings.
     """
     import math
 
@@ -433,7 +468,16 @@ def explain_singular(c: Circuit, frequency_hz: float, what: str) -> list[Diagnos
 def warn_conditioning(c: Circuit, frequency_hz: float) -> None:
     """Warn (once, on ``circuit.warnings``) when the loaded system is ill-conditioned.
 
-    The threshold is :data:`solver.mna.COND_WARN` on the equilibrated matrix.
+    Parameters
+    ----------
+    c : Circuit
+    frequency_hz : float
+
+    Notes
+    -----
+    The threshold is :data:`solver.mna.COND_WARN` on the row- and
+    column-equilibrated matrix, so that mixing siemens, farads and unit
+    entries alone does not trigger it.
     """
     import math
 
