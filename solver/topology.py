@@ -376,7 +376,7 @@ def require_sound(circuit: Circuit, view: str = "ac") -> None:
     Examples
     --------
     >>> from solver.api import loads
-    >>> c = loads("signal VS (a, gnd) 1 V\nresistor R1 (a, b) 1k\nload RL (a, gnd) 1k\n")
+    >>> c = loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nload RL (a, gnd) 1k\\n")
     >>> require_sound(c)
     >>> [d.message.split(" (")[0] for d in c.warnings]
     ["node 'b' has a single connection"]
