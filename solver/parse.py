@@ -278,13 +278,21 @@ class _Driver:
         # Memo of whole LR transitions. The actions taken on a token depend only on the
         # stack of states and the token's terminal, so each stack seen gets an id, and
         # rows[id][terminal] = (callbacks to run, id of the stack after the shift, accepted?).
+        self.start_state = table.start_states[start]
+        self._reset()
+
+    def _reset(self) -> None:
         self.stacks: list[tuple] = []
         self.stack_ids: dict[tuple, int] = {}
         self.rows: list[tuple] = []  # per stack id: (match, kinds, unless, memo row)
         self.memo_size = 0
-        self.start = self._intern((table.start_states[start],))
+        self.start = self._intern((self.start_state,))
 
     MEMO_LIMIT = 200_000
+    #: deeper stacks (deeply nested expressions) go to lark's loop: the memo keys whole stacks,
+    #: and remembering every prefix of a very deep one would cost memory quadratic in its depth
+    MAX_FAST_DEPTH = 400
+    STACK_LIMIT = 50_000  # distinct stacks remembered; beyond this the memo starts afresh
     # what to do with a matched terminal (+ NEWLINE when its text may hold line breaks)
     KEEP, DROP, IGNORE, UNLESS, NEWLINE = 0, 1, 2, 3, 4
 
@@ -345,6 +353,8 @@ class _Driver:
             if ttype == "$END" and stack[-1] == self.end:
                 accepted = True
                 break
+        if len(stack) > self.MAX_FAST_DEPTH:
+            raise _Fallback("deep")
         if self.memo_size > self.MEMO_LIMIT:  # a pathological input: start afresh, stay bounded
             for row in self.rows:
                 row[3].clear()
@@ -356,6 +366,8 @@ class _Driver:
 
     def run(self, text: str):
         """Parse ``text``; the value of the start rule, or :class:`_Fallback`."""
+        if len(self.stacks) > self.STACK_LIMIT:  # keep a long-lived process bounded
+            self._reset()
         dropped, term_callbacks, rows = self.dropped, self.term_callbacks, self.rows
         KEEP, DROP, IGNORE, NEWLINE = self.KEEP, self.DROP, self.IGNORE, self.NEWLINE
         sid, values = self.start, []

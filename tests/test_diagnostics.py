@@ -215,3 +215,11 @@ def test_write_file_refuses_a_folder(tmp_path):
     with pytest.raises(InputError) as e:
         write_file(tmp_path, "x", force=True)
     assert "is a folder" in e.value.diagnostics[0].message
+
+
+def test_deep_nesting_keeps_the_parser_memo_small():
+    # the fast loop remembers whole LR stacks; a 4000-deep expression must not fill memory
+    text = "let x = " + "(" * 4000 + "1" + ")" * 4000 + "\n" + GOOD
+    api.loads(text)
+    assert len(P._driver("start").stacks) <= P._Driver.STACK_LIMIT
+    assert max(map(len, P._driver("start").stacks)) <= P._Driver.MAX_FAST_DEPTH + 1
