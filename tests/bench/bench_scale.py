@@ -3,7 +3,7 @@
 Run: ``cd /work/wt6 && python tests/bench/bench_scale.py [--sizes 1000,10000,...]``.
 Each size runs in its own child process, so the peak resident memory
 (``ru_maxrss``) is that size's alone. Columns: elements, seconds for parse,
-elaborate, topology checks, the port solve (five sparse LU solves) and the
+elaborate, topology checks, the port solve (three sparse LU solves) and the
 total, then the peak memory. Goals: memory under 1 GB at 200,000 elements;
 time close to linear in size.
 """
