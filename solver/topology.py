@@ -410,12 +410,24 @@ def _drive_systems(c: Circuit):
     yield "without the load", assemble(base + signal_elements(c), c.ground)
 
 
-def _unknown(name: str, c: Circuit) -> str:
-    """``v(a)`` -> node 'a'; ``i(R1)`` -> the current of R1."""
+def _unknown(name: str, c: Circuit, kinds: dict | None = None) -> str:
+    """``v(a)`` -> node 'a'; ``i(U1)`` -> the output current of op-amp U1; ``i(V1)`` -> the current of V1."""
     inner = name[2:-1]
     if name.startswith("v("):
         return f"node {_show(inner, c)}"
+    if (kinds or {}).get(inner) is Nullor:
+        return f"the output current of op-amp {inner}"
     return f"the current of {inner}"
+
+
+def _equation(name: str, c: Circuit, kinds: dict | None = None) -> str:
+    """The row of an unknown: KCL at a node, or the branch law of a voltage-defined element."""
+    inner = name[2:-1]
+    if name.startswith("v("):
+        return f"KCL at {_show(inner, c)}"
+    if (kinds or {}).get(inner) is Nullor:
+        return f"the input condition of op-amp {inner} (v+ = v-)"
+    return f"the voltage law of {inner}"
 
 
 def explain_singular(c: Circuit, frequency_hz: float, what: str) -> list[Diagnostic]:
@@ -453,10 +465,11 @@ def explain_singular(c: Circuit, frequency_hz: float, what: str) -> list[Diagnos
         kind = "structurally singular (the pattern of connections alone)" if info.structural else \
             "numerically singular (the element values cancel)"
         msg = f"the circuit {desc} is {kind} at {frequency_hz:g} Hz: rank {info.rank} of {info.size}"
+        kinds = {e.name: type(e) for e in system.stamper.elements if e.needs_branch}
         if info.undetermined:
-            msg += f"; undetermined: {_names(info.undetermined, lambda u: _unknown(u, c))}"
+            msg += f"; undetermined: {_names(info.undetermined, lambda u: _unknown(u, c, kinds))}"
         if info.redundant:
-            msg += f"; dependent equations: {_names(info.redundant, lambda u: 'KCL at ' + _unknown(u, c)[5:] if u.startswith('v(') else 'the law of ' + u[2:-1])}"
+            msg += f"; dependent equations: {_names(info.redundant, lambda u: _equation(u, c, kinds))}"
         if not info.undetermined and not info.redundant:
             msg += " (too large for the dense analysis that names the nodes)"
         nodes = {u[2:-1] for u in info.undetermined if u.startswith("v(")}

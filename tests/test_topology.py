@@ -182,3 +182,12 @@ def test_device_without_operating_point_is_a_clean_error():
     assert msgs == ["Q1 has no operating point, so its small-signal model is unknown: give ic= (or gm=), "
                     "or solve the bias first"]
     assert diags[0].loc.line == 2
+
+
+def test_op_amp_constraints_that_the_graph_checks_cannot_see():
+    # nullor input conditions are not branches of the graph: a structurally singular set of them
+    # is named by the bipartite matching (Duff 1981, maximum transversal, from memory)
+    msgs, diags = errors_of("signal VS (n1, gnd) 1 uA, rs=10k\nopamp U0 (n4, n4, n2)\nopamp U1 (n2, n2, n1)\n"
+                            "opamp U2 (n3, n4, n2)\ncapacitor C3 (n1, n2) 1 nF\nload RL (n2, gnd) 1k\n")
+    assert "structurally singular" in msgs[0] and "undetermined: node 'n3'" in msgs[0]
+    assert "the input condition of op-amp U2 (v+ = v-)" in msgs[0] and diags[0].loc.line == 4
