@@ -16,7 +16,7 @@ import re
 import threading
 from pathlib import Path
 
-from lark import Lark, Token, Transformer, v_args
+from lark import Lark, Transformer
 from lark.exceptions import UnexpectedCharacters, UnexpectedEOF, UnexpectedInput, UnexpectedToken, VisitError
 
 from . import expr as ex

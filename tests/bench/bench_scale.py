@@ -33,7 +33,6 @@ def measure(kind: str, size: int) -> dict:
     from solver.parse import parse
     from solver.ports import port_quantities
     text = rc_ladder(size // 2) if kind == "ladder" else transistor_chain(size)
-    from solver.bulk import paused_gc
     gc.collect()
     gc.disable()  # as solver.api.loads and solve do (solver.bulk)
     t0 = time.perf_counter()
