@@ -224,6 +224,8 @@ def diagnose(system: System, s: complex) -> Singularity:
     from scipy.sparse.csgraph import maximum_bipartite_matching, structural_rank
     names = system.stamper.unknown_names()
     n = system.stamper.size
+    if n == 0:
+        return Singularity([], [], False, 0, 0)
     A = _equilibrate(system.matrix(s))
     # the structure is what the stamps wrote, before values that cancel are summed (a numeric
     # cancellation is found by the SVD below, and named as such)
@@ -233,7 +235,7 @@ def diagnose(system: System, s: complex) -> Singularity:
     cols = np.fromiter((t[1] for t in trip), dtype=np.int64, count=len(trip))
     pattern = sp.csr_matrix((np.ones(len(trip)), (rows, cols)), shape=(n, n))  # rows = equations
     pattern.sum_duplicates()
-    rank = int(structural_rank(pattern)) if n else 0
+    rank = int(structural_rank(pattern))
     if rank < n:
         col_of_row = maximum_bipartite_matching(pattern, perm_type="column")  # eq -> unknown
         row_of_col = maximum_bipartite_matching(pattern, perm_type="row")     # unknown -> eq
