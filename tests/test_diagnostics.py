@@ -223,3 +223,14 @@ def test_deep_nesting_keeps_the_parser_memo_small():
     api.loads(text)
     assert len(P._driver("start").stacks) <= P._Driver.STACK_LIMIT
     assert max(map(len, P._driver("start").stacks)) <= P._Driver.MAX_FAST_DEPTH + 1
+
+
+def test_unused_let_and_block_warnings():
+    c = api.loads("block spare (p, q)\n  resistor R (p, q) 1k\nend\n"
+                  "block amp (i, o)\n  let unused = 3\n  let used = 1k\n  resistor R (i, o) used\nend\n"
+                  "let free = 5\nsignal VS (a, gnd) 1 V\nuse amp X1 (a, b)\nuse amp X2 (b, gnd)\nload RL (b, gnd) -1k\n")
+    got = sorted((d.loc.line, d.message) for d in c.warnings)
+    assert got == [(1, "block 'spare' is never used"),
+                   (5, "'unused' in block 'amp' is defined but never used"),
+                   (9, "'free' is defined but never used"),
+                   (13, "negative load value (-1000)")]
