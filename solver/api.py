@@ -18,6 +18,7 @@ import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from .bulk import paused_gc
 from .diagnostics import Diagnostic, InputError, Loc, error
 from .elaborate import elaborate
 from .model import Circuit
@@ -27,11 +28,15 @@ from .ports import UNITS, PortError, default_frequency, port_quantities
 
 def read_source(path: str | Path) -> str:
     """Read a netlist file as UTF-8; a bad byte is a diagnostic, not a traceback."""
+    from .parse import MAX_FILE_BYTES
     p = Path(path)
     try:
-        data = p.read_bytes()
+        with p.open("rb") as f:  # never more than the limit: a huge or endless file stops here
+            data = f.read(MAX_FILE_BYTES + 1)
     except OSError as e:
         raise error(None, f"cannot read '{path}': {e.strerror or e}") from None
+    if len(data) > MAX_FILE_BYTES:
+        raise error(Loc(str(path), 1, 1), f"file larger than {MAX_FILE_BYTES} bytes")
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError as e:
@@ -47,7 +52,8 @@ def read_source(path: str | Path) -> str:
 
 def loads(text: str, file: str = "<string>") -> Circuit:
     """Parse and elaborate netlist text into a :class:`~solver.model.Circuit`."""
-    return elaborate(parse(text, file))
+    with paused_gc():  # issue 6: bulk building; see solver.bulk
+        return elaborate(parse(text, file))
 
 
 def load(path: str | Path) -> Circuit:
@@ -113,24 +119,27 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
     Raises InputError for a circuit that cannot be solved (e.g. singular).
     """
     c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    from . import topology  # name floating nodes, source loops and cut sets before solving
     from .bias import ensure_bias
-    bias = ensure_bias(c, force)
-    f = default_frequency(c) if at is None else float(at)
-    notes = list(bias.notes) if bias else []
-    if at is None and c.reactive:  # the flat top of the main gain, not a fixed frequency (issue 5)
-        from .frequency import midband_frequency
-        fm = midband_frequency(c)
-        if fm is not None:
-            f = fm
-            notes.append(f"no --at given: evaluated at the detected midband frequency, {_eng_hz(f)} "
-                         "(the flat top of the main gain)")
-        else:
-            notes.append(f"no --at given and no flat top found: evaluated at {_eng_hz(f)}")
-    try:
-        pr = port_quantities(c, f)
-    except PortError as e:
-        raise InputError([Diagnostic("error", Loc(c.file, 1, 1), f"{e} (a floating node, a loop of "
-                                     "voltage sources or a cut set of current sources?)")]) from None
+    with paused_gc():
+        bias = ensure_bias(c, force)
+        topology.require_sound(c, "dc" if at is not None and float(at) == 0 else "ac")
+        f = default_frequency(c) if at is None else float(at)
+        notes = list(bias.notes) if bias else []
+        if at is None and c.reactive:  # the flat top of the main gain, not a fixed frequency
+            from .frequency import midband_frequency
+            fm = midband_frequency(c)
+            if fm is not None:
+                f = fm
+                notes.append(f"no --at given: evaluated at the detected midband frequency, {_eng_hz(f)} "
+                             "(the flat top of the main gain)")
+            else:
+                notes.append(f"no --at given and no flat top found: evaluated at {_eng_hz(f)}")
+        try:
+            pr = port_quantities(c, f)
+        except PortError as e:
+            raise InputError(topology.explain_singular(c, f, str(e))) from None
+        topology.warn_conditioning(c, f)
     return Result(c, f, pr.quantities, device_table(c), notes, bias)
 
 

@@ -8,11 +8,15 @@ prints them (with the source line and a caret) and exits with code 2.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 
-@dataclass(frozen=True)
-class Loc:
-    """A place in a source file: 1-based line and column."""
+class Loc(NamedTuple):
+    """A place in a source file: 1-based line and column; ``width`` columns for the caret.
+
+    A named tuple rather than a dataclass: the parser makes several per netlist
+    line, and a tuple is built about twice as fast (immutable and hashable alike).
+    """
 
     file: str
     line: int
@@ -50,6 +54,9 @@ class InputError(Exception):
         super().__init__("\n".join(d.format() for d in self.diagnostics))
 
 
+MAX_REPORTED = 50  # errors listed per run; the rest are counted
+
+
 @dataclass
 class Diagnostics:
     """An accumulator: add errors and warnings, raise once at a checkpoint."""
@@ -71,9 +78,20 @@ class Diagnostics:
         return [d for d in self.items if d.severity == "warning"]
 
     def check(self) -> None:
-        """Raise :class:`InputError` with everything collected if any error is present."""
-        if self.errors:
-            raise InputError(self.items)
+        """Raise :class:`InputError` with everything collected if any error is present.
+
+        After :data:`MAX_REPORTED` errors the rest are summed up in one note, so that
+        a file of garbage gives a screenful, not a flood.
+        """
+        errors = self.errors
+        if not errors:
+            return
+        if len(errors) > MAX_REPORTED:
+            last = errors[MAX_REPORTED - 1]
+            keep = self.items[: self.items.index(last) + 1]
+            keep.append(Diagnostic("note", None, f"{len(errors) - MAX_REPORTED} more errors not shown"))
+            raise InputError(keep)
+        raise InputError(self.items)
 
 
 def error(loc: Loc | None, message: str) -> InputError:

@@ -244,6 +244,8 @@ class Resolver:
             if p.key == "model":
                 model = _model_name(p)
                 continue
+            if p.key not in spec.params:
+                continue  # reported by _check_shape; a reference (Q1.re) may get here first
             v = ex.evaluate(p.value, self.lookup(entry.scope))
             want = spec.params[p.key]
             if v.dim is not None and want is not None and v.dim != want:
@@ -342,7 +344,8 @@ class _Elaborator:
         self.circuit.ground = self.ground
         self.element_entries: list = []
         self.n_elements = 0
-        self._pending: list = []  # (block body, instance scope) to build after the top level
+        self.scopes: list[tuple[str, Scope]] = []  # (block name, instance scope)
+        self._pending: list = []  # (block body, instance scope), filled while declaring
 
     # structure -----------------------------------------------------------------
     def _split_blocks(self) -> list:
@@ -379,7 +382,6 @@ class _Elaborator:
                 self.ground.add(s.node.name)
         top = Scope("", None)
         self.res.top = top
-        self._pending = []  # instance bodies queued by _declare, built by _build (fix: was set too late)
         self._declare(top_stmts, top, depth=0)
         self._build(top_stmts, top)
         self._finish(top)
@@ -426,6 +428,7 @@ class _Elaborator:
                              f"({', '.join(p.name for p in ports)}), got {len(s.nodes)} nodes")
             return
         inner = Scope(scope.prefix + s.instance + ".", self.res.top)
+        self.scopes.append((s.block, inner))
         for p, n in zip(ports, s.nodes):
             if p.name in self.ground:
                 self.diags.error(p.loc, f"a port cannot be the reference node '{p.name}'")
@@ -600,6 +603,8 @@ class _Elaborator:
                 raise error(s.loc, f"a second load (the first is '{c.load.name}')")
             if v.x == 0:
                 raise error(s.value.loc, "a load of 0 Ω shorts the output")
+            if v.x < 0:
+                self.diags.warning(s.value.loc, f"negative load value ({v.x:g})")
             c.load = Load(full, nodes[0], v.x, s.loc)
             c.values[full] = v.x
             return
@@ -702,3 +707,16 @@ class _Elaborator:
         for name, e in top.names.items():
             if e.kind == "let" and not e.used:
                 self.diags.warning(e.loc, f"'{name}' is defined but never used")
+        # a let inside a block: unused when no instance of the block uses it
+        used: dict[tuple, bool] = {}
+        names: dict[tuple, tuple] = {}
+        for block, scope in self.scopes:
+            for name, e in scope.names.items():
+                if e.kind == "let":
+                    key = (block, name, e.loc)
+                    used[key] = used.get(key, False) or e.used
+                    names[key] = (block, name)
+        for key, u in used.items():
+            if not u:
+                block, name = names[key]
+                self.diags.warning(key[2], f"'{name}' in block '{block}' is defined but never used")

@@ -93,13 +93,23 @@ def refs(e: Expr):
 
 
 def depth(e: Expr) -> int:
-    if isinstance(e, Unary):
-        return 1 + depth(e.operand)
-    if isinstance(e, Binary):
-        return 1 + max(depth(e.left), depth(e.right))
-    if isinstance(e, Call):
-        return 1 + depth(e.arg)
-    return 1
+    """Nesting depth of an expression tree (a literal or a name is 1).
+
+    Iterative, so that a tree deeper than Python's recursion limit is measured
+    (and rejected by the parser's limit) instead of crashing.
+    """
+    best, todo = 0, [(e, 1)]
+    while todo:
+        node, d = todo.pop()
+        best = max(best, d)
+        if isinstance(node, Unary):
+            todo.append((node.operand, d + 1))
+        elif isinstance(node, Binary):
+            todo.append((node.left, d + 1))
+            todo.append((node.right, d + 1))
+        elif isinstance(node, Call):
+            todo.append((node.arg, d + 1))
+    return best
 
 
 def _same(op: str, a: Value, b: Value, loc: Loc) -> Dim | None:

@@ -2,20 +2,26 @@
 
 The grammar lives in ``grammar/portwise.lark``; the Transformer below has one
 small method per rule and builds our statement and expression dataclasses
-directly (no full parse tree is kept). A file that fails to parse as a whole is
-parsed again line by line, so every syntax error is reported in one run.
+directly, run by the parser as each rule is reduced (no parse tree is kept).
+A valid file goes through :class:`_Driver`, a lean loop over lark's own
+compiled tables (about three times lark's loop); anything else goes through
+lark's loop, and a file that fails as a whole is parsed again line by line, so
+every syntax error is reported in one run. Input limits (file size, line
+length, control characters, expression depth) are checked here too.
 """
 from __future__ import annotations
 
 import functools
 import re
+import threading
 from pathlib import Path
 
-from lark import Lark, Token, Transformer, v_args
+from lark import Lark, Transformer
 from lark.exceptions import UnexpectedCharacters, UnexpectedEOF, UnexpectedInput, UnexpectedToken, VisitError
 
 from . import expr as ex
-from .diagnostics import Diagnostics, InputError, Loc, error
+from .bulk import paused_gc
+from .diagnostics import MAX_REPORTED, Diagnostics, InputError, Loc, error
 from .netlist import (BlockStart, Claim, ElementStmt, End, Ground, Let, Netlist, Node, Output,
                       Param, Title, Use)
 from .units import UnitError, parse_quantity
@@ -34,15 +40,49 @@ def grammar_path() -> Path:
     raise FileNotFoundError("grammar/portwise.lark not found")
 
 
+class _Tok:
+    """A token of the fast loop: all that the rule callbacks read from a :class:`lark.Token`."""
+
+    __slots__ = ("type", "value", "line", "column")
+
+    def __init__(self, type_: str, value: str, line: int, column: int):
+        self.type = type_
+        self.value = value
+        self.line = line
+        self.column = column
+
+    def __str__(self) -> str:
+        return self.value
+
+
+class _Kids:
+    """What a lark helper rule (a repetition, a ``_rule``) reduces to: its children, spliced
+    into the parent rule by lark's child filter. Lighter than the default :class:`lark.Tree`."""
+
+    __slots__ = ("children",)
+
+    def __init__(self, children):
+        self.children = children
+
+
 class _Build(Transformer):
-    """Parse-tree rules to dataclasses; ``file`` and ``text`` give locations and raw spans."""
+    """Parse-tree rules to dataclasses, run inline by the parser as each rule is reduced.
+
+    Tokens are :class:`lark.Token` (lark's own loop) or :class:`_Tok` (the fast
+    loop); the methods only use ``str(tok)``, ``tok.line`` and ``tok.column``.
+    ``file`` is set before each parse (see :func:`_run`).
+    """
 
     def __init__(self, file: str = "<string>"):
         super().__init__()
         self.file = file
 
-    def _loc(self, tok: Token) -> Loc:
-        return Loc(self.file, tok.line, tok.column, max(1, len(str(tok))))
+    def __default__(self, data, children, meta):
+        return _Kids(children)
+
+    def _loc(self, tok) -> Loc:
+        text = str(tok)
+        return Loc(self.file, tok.line, tok.column, len(text) or 1)
 
     # --- statements -----------------------------------------------------------
     def start(self, items):
@@ -108,7 +148,8 @@ class _Build(Transformer):
         return Node(str(tok).strip(), self._loc(tok))
 
     def nodes(self, items):
-        return [self._node(t) for t in items]
+        file = self.file
+        return [Node(str(t).strip(), Loc(file, t.line, t.column, len(str(t)) or 1)) for t in items]
 
     def params(self, items):
         return list(items)
@@ -121,7 +162,7 @@ class _Build(Transformer):
     def number(self, items):
         (tok,) = items
         try:
-            value, d = parse_quantity(str(tok))
+            value, d = _quantity(str(tok))
         except UnitError as e:
             raise error(self._loc(tok), str(e)) from None
         return ex.Num(value, d, self._loc(tok), str(tok))
@@ -150,14 +191,245 @@ class _Build(Transformer):
 
 @functools.lru_cache(maxsize=None)
 def _parser(start: str) -> Lark:
+    """The compiled grammar for one start symbol, built once per process.
+
+    The Transformer is given to lark (``transformer=``), so it runs inline as
+    each rule is reduced: no parse tree is ever built.
+    """
     return Lark(grammar_path().read_text(encoding="utf-8"), parser="lalr", lexer="contextual",
                 start=start, propagate_positions=False, maybe_placeholders=False,
-                cache=True)
+                transformer=_Build())
+
+
+_quantity = functools.lru_cache(maxsize=4096)(parse_quantity)  # netlists repeat their values
+
+_LOCK = threading.Lock()  # the inline Transformer carries the file name of the current parse
+
+
+def _builder(parser: Lark) -> "_Build":
+    return parser.options.transformer
+
+
+class _Fallback(Exception):
+    """The fast loop met something it does not handle (any error): lark's own loop takes over."""
+
+
+class _Driver:
+    """A lean LALR(1) loop over lark's own tables, contextual lexers and rule callbacks.
+
+    lark's parser loop spends most of its time on bookkeeping that a valid
+    netlist never needs: a full :class:`lark.Token` for every ``(``, ``,`` and
+    newline that the rule callbacks then throw away, and a callback call for
+    every unit reduction of the expression precedence chain. This loop reads
+    the *same* compiled grammar (``grammar/portwise.lark`` stays the single
+    source of the syntax) and differs only in what it skips:
+
+    * a token whose terminal every rule filters out is pushed as ``None``;
+    * a reduction by a ``?rule`` with one kept child keeps the child as it is
+      (exactly what lark's ``ExpandSingleChild`` returns);
+    * the LR actions for a token depend only on the stack of states and the
+      terminal, so each (stack, terminal) transition is worked out once and
+      memoised (the callbacks to run and the stack after the shift);
+    * blanks between tokens are skipped by the match that finds the next token.
+
+    ``tests/test_robustness.py`` checks on random inputs that it returns what
+    lark's own loop returns, or gives up where lark raises.
+
+    Any input it cannot take (a syntax error, a surprise) raises
+    :class:`_Fallback`, and the caller runs lark's own parser on the same text,
+    so every error message is lark's.
+
+    References
+    ----------
+    A. V. Aho, M. S. Lam, R. Sethi, J. D. Ullman, *Compilers: Principles,
+    Techniques, and Tools*, 2nd ed., section 4.7 (the LR parsing loop), from memory.
+    """
+
+    def __init__(self, lark: Lark, start: str):
+        from lark.grammar import Rule
+        from lark.parsers.lalr_analysis import Shift
+        front = lark.parser
+        table = front.parser._parse_table
+        callbacks = front.parser.parser.callbacks
+        self.term_callbacks = {str(k): v for k, v in callbacks.items() if isinstance(k, str)}
+        kept, dropped = set(), set()
+        rules = [r for r in callbacks if isinstance(r, Rule)]
+        index = {r: i for i, r in enumerate(rules)}
+        # per rule: (number of children, goto symbol, callback or None for a unit reduction)
+        self.rules = []
+        for rule in rules:
+            keep_all = rule.options.keep_all_tokens
+            for sym in rule.expansion:
+                if sym.is_term:
+                    (dropped if sym.filter_out and not keep_all else kept).add(str(sym.name))
+            unit = False
+            if rule.options.expand1 and not rule.alias and len(rule.expansion) == 1 and not keep_all:
+                sym = rule.expansion[0]
+                unit = not (sym.is_term and sym.filter_out) and not (not sym.is_term and sym.name.startswith("_"))
+            self.rules.append((len(rule.expansion), str(rule.origin.name), None if unit else callbacks[rule]))
+        self.dropped = frozenset(dropped - kept - set(self.term_callbacks))
+        # actions with plain-str keys (lark's keys are Tokens, slow to compare): shift to state s is
+        # s >= 0, reduce by rule i is -1 - i
+        self.actions = {state: {str(sym): (arg if act is Shift else -1 - index[arg])
+                                for sym, (act, arg) in row.items()}
+                        for state, row in table.states.items()}
+        self.end = table.end_states[start]
+        self.lexers = {state: self._lexer(lexer) for state, lexer in front.lexer.lexers.items()}
+        # Memo of whole LR transitions. The actions taken on a token depend only on the
+        # stack of states and the token's terminal, so each stack seen gets an id, and
+        # rows[id][terminal] = (callbacks to run, id of the stack after the shift, accepted?).
+        self.start_state = table.start_states[start]
+        self._reset()
+
+    def _reset(self) -> None:
+        self.stacks: list[tuple] = []
+        self.stack_ids: dict[tuple, int] = {}
+        self.rows: list[tuple] = []  # per stack id: (match, kinds, unless, memo row)
+        self.memo_size = 0
+        self.start = self._intern((self.start_state,))
+
+    MEMO_LIMIT = 200_000
+    #: deeper stacks (deeply nested expressions) go to lark's loop: the memo keys whole stacks,
+    #: and remembering every prefix of a very deep one would cost memory quadratic in its depth
+    MAX_FAST_DEPTH = 400
+    STACK_LIMIT = 50_000  # distinct stacks remembered; beyond this the memo starts afresh
+    # what to do with a matched terminal (+ NEWLINE when its text may hold line breaks)
+    KEEP, DROP, IGNORE, UNLESS, NEWLINE = 0, 1, 2, 3, 4
+
+    def _lexer(self, lexer):
+        """One lark contextual-lexer state as (match function, kinds, keyword callbacks)."""
+        mres = tuple(lexer.scanner._mres)  # builds lexer.callback too
+        # blanks between tokens (the %ignore terminals without a newline) are skipped by the
+        # same regex match that finds the next token, instead of costing a match each
+        skip = "|".join(t.pattern.to_regexp() for t in lexer.terminals
+                        if t.name in lexer.ignore_types and t.name not in lexer.newline_types)
+        if skip:
+            mres = tuple(re.compile(f"(?:{skip})*(?:{m.pattern})", m.flags) for m in mres)
+        if len(mres) == 1:
+            match = mres[0].match
+        else:
+            def match(text, pos, _mres=mres):
+                for mre in _mres:
+                    m = mre.match(text, pos)
+                    if m:
+                        return m
+                return None
+        unless = dict(lexer.callback)
+        kinds = {}
+        for t in lexer.terminals:
+            name = t.name
+            kind = (self.IGNORE if name in lexer.ignore_types else self.UNLESS if name in unless
+                    else self.DROP if name in self.dropped else self.KEEP)
+            kinds[name] = kind | (self.NEWLINE if name in lexer.newline_types else 0)
+        return match, kinds, unless
+
+    def _intern(self, stack: tuple) -> int:
+        i = self.stack_ids.get(stack)
+        if i is None:
+            i = self.stack_ids[stack] = len(self.stacks)
+            self.stacks.append(stack)
+            self.rows.append(self.lexers[stack[-1]] + ({},))
+        return i
+
+    def _step(self, sid: int, ttype: str):
+        """Run the LR(1) actions for one token from stack ``sid``; remember the result."""
+        actions, rules = self.actions, self.rules
+        stack = list(self.stacks[sid])
+        ops = []
+        while True:
+            a = actions[stack[-1]].get(ttype)
+            if a is None:
+                raise _Fallback(ttype)
+            if a >= 0:
+                stack.append(a)
+                accepted = False
+                break
+            size, origin, callback = rules[-1 - a]
+            if callback is not None:
+                ops.append((callback, size))
+            if size:
+                del stack[-size:]
+            stack.append(actions[stack[-1]][origin])
+            if ttype == "$END" and stack[-1] == self.end:
+                accepted = True
+                break
+        if len(stack) > self.MAX_FAST_DEPTH:
+            raise _Fallback("deep")
+        if self.memo_size > self.MEMO_LIMIT:  # a pathological input: start afresh, stay bounded
+            for row in self.rows:
+                row[3].clear()
+            self.memo_size = 0
+        hit = (tuple(ops), self._intern(tuple(stack)), accepted)
+        self.rows[sid][3][ttype] = hit
+        self.memo_size += 1
+        return hit
+
+    def run(self, text: str):
+        """Parse ``text``; the value of the start rule, or :class:`_Fallback`."""
+        if len(self.stacks) > self.STACK_LIMIT:  # keep a long-lived process bounded
+            self._reset()
+        dropped, term_callbacks, rows = self.dropped, self.term_callbacks, self.rows
+        KEEP, DROP, IGNORE, NEWLINE = self.KEEP, self.DROP, self.IGNORE, self.NEWLINE
+        sid, values = self.start, []
+        pos, line, line_start, n = 0, 1, 0, len(text)
+        while True:
+            match, kinds, unless, memo = rows[sid]
+            if pos >= n:
+                ttype, tok = "$END", None
+            else:
+                m = match(text, pos)
+                if m is None:
+                    raise _Fallback(pos)
+                ttype = m.lastgroup
+                value = m.group(ttype)
+                pos = m.start(ttype)
+                kind = kinds[ttype]
+                tok_line, col = line, pos - line_start + 1
+                if kind & NEWLINE:
+                    kind -= NEWLINE
+                    k = value.count("\n")
+                    if k:
+                        line += k
+                        line_start = pos + value.rindex("\n") + 1
+                pos = m.end()
+                if kind == KEEP:
+                    tok = _Tok(ttype, value, tok_line, col)
+                elif kind == DROP:
+                    tok = None
+                elif kind == IGNORE:
+                    continue
+                else:  # a name that may be a keyword: lark's own callback decides
+                    tok = unless[ttype](_Tok(ttype, value, tok_line, col))
+                    ttype = tok.type
+                    if ttype in dropped:
+                        tok = None
+            hit = memo.get(ttype)
+            if hit is None:
+                hit = self._step(sid, ttype)
+            ops, sid, accepted = hit
+            for callback, size in ops:
+                if size:
+                    children = values[-size:]
+                    del values[-size:]
+                else:
+                    children = []
+                values.append(callback(children))
+            if accepted:
+                return values[-1]
+            values.append(term_callbacks[ttype](tok) if ttype in term_callbacks else tok)
+
+
+@functools.lru_cache(maxsize=None)
+def _driver(start: str) -> _Driver:
+    return _Driver(_parser(start), start)
 
 
 _EXPECT_NAMES = {"NAME": "a name", "QUANTITY": "a number", "_NL": "end of line", "LPAR": "'('",
                  "RPAR": "')'", "COMMA": "','", "EQUAL": "'='", "STRING": "a quoted string",
-                 "$END": "end of file"}
+                 "$END": "end of file", "ADD_OP": "'+' or '-'", "MUL_OP": "'*' or '/'", "POW_OP": "'^'",
+                 "PAR_OP": "'||'", "CLAIM_OP": "'=' or '~'", "DOT": "'.'", "WITHIN": "'within'",
+                 "VALUED_KW": "an element keyword", "CONTROLLED_KW": "an element keyword",
+                 "SENSED_KW": "an element keyword", "DEVICE_KW": "a device keyword"}
 
 
 def _describe(expected) -> str:
@@ -175,7 +447,14 @@ def _syntax_message(e: UnexpectedInput) -> str:
     if isinstance(e, UnexpectedToken):
         tok = e.token
         what = "end of line" if tok.type in ("_NL", "$END") else repr(str(tok))
-        return f"unexpected {what}; expected {_describe(e.expected)}"
+        expected = e.expected
+        ip = getattr(e, "interactive_parser", None)
+        if ip is not None:  # LALR merges states: ask the parser what it really takes here
+            try:
+                expected = ip.accepts() or expected
+            except Exception:  # noqa: BLE001 - the plain expected set is still right, only wider
+                pass
+        return f"unexpected {what}; expected {_describe(expected)}"
     return "syntax error"
 
 
@@ -191,9 +470,27 @@ def _strip_comment(line: str) -> str:
 
 
 def _check_text(text: str, file: str, diags: Diagnostics) -> None:
-    for i, line in enumerate(text.splitlines(), 1):
-        if len(line) > MAX_LINE_CHARS:
-            diags.error(Loc(file, i, 1), f"line longer than {MAX_LINE_CHARS} characters")
+    """Limits that keep every later stage bounded: line length, control characters.
+
+    Two whole-text regex scans, so that the check costs little beside the parse.
+    """
+    for m in _LONG_LINE.finditer(text):
+        line = text.count("\n", 0, m.start()) + 1
+        diags.error(Loc(file, line, MAX_LINE_CHARS + 1), f"line longer than {MAX_LINE_CHARS} characters")
+        if len(diags.errors) >= MAX_REPORTED:
+            return
+    for m in _CONTROL.finditer(text):
+        line = text.count("\n", 0, m.start()) + 1
+        col = m.start() - (text.rfind("\n", 0, m.start()) + 1) + 1
+        diags.error(Loc(file, line, col),
+                    f"control character U+{ord(m.group()):04X} in the text (not a netlist character)")
+        if len(diags.errors) >= MAX_REPORTED:
+            return
+
+
+# C0 controls other than tab, newline, carriage return and form feed; DEL; C1 controls; surrogates
+_CONTROL = re.compile("[\x00-\x08\x0b\x0e-\x1f\x7f-\x9f\ud800-\udfff]")
+_LONG_LINE = re.compile(f"^[^\\n]{{{MAX_LINE_CHARS + 1}}}", re.M)  # tried at line starts only
 
 
 def parse(text: str, file: str = "<string>") -> Netlist:
@@ -222,12 +519,12 @@ def parse(text: str, file: str = "<string>") -> Netlist:
     'R1'
     """
     diags = Diagnostics()
-    if len(text.encode("utf-8", "surrogatepass")) > MAX_FILE_BYTES:
+    if len(text) > MAX_FILE_BYTES or len(text.encode("utf-8", "surrogatepass")) > MAX_FILE_BYTES:
         raise error(Loc(file, 1, 1), f"file larger than {MAX_FILE_BYTES} bytes")
     _check_text(text, file, diags)
     diags.check()
     try:
-        stmts = _run(_parser("start"), text, file)
+        stmts = _run("start", text, file, fast=True)
         nl = Netlist(file, text, stmts)
     except InputError as e:
         if any(d.loc is None or d.severity != "error" for d in e.diagnostics):
@@ -254,21 +551,28 @@ def _exprs(s):
         yield p.value
 
 
-def _run(parser: Lark, text: str, file: str):
-    import sys
-    limit = sys.getrecursionlimit()
-    sys.setrecursionlimit(max(limit, 20000))
-    try:
-        tree = parser.parse(text)
-        return _Build(file).transform(tree)
-    except VisitError as e:
-        if isinstance(e.orig_exc, InputError):
-            raise e.orig_exc from None
-        raise
-    except RecursionError:
-        raise error(Loc(file, 1, 1), "expression nested too deeply") from None
-    finally:
-        sys.setrecursionlimit(limit)
+def _run(start: str, text: str, file: str, fast: bool = False):
+    """Parse ``text`` from rule ``start``: the fast loop first (if asked), lark's own loop otherwise.
+
+    Both loops are iterative and the callbacks build the trees bottom-up, so no
+    input can exhaust the Python stack here.
+    """
+    parser = _parser(start)
+    with _LOCK:
+        _builder(parser).file = file
+        try:
+            if fast:
+                # a few objects per token, all kept: see solver.bulk (about half the time otherwise)
+                try:
+                    with paused_gc():
+                        return _driver(start).run(text)
+                except _Fallback:
+                    pass
+            return parser.parse(text)
+        except VisitError as e:
+            if isinstance(e.orig_exc, InputError):
+                raise e.orig_exc from None
+            raise
 
 
 def _logical_lines(text: str):
@@ -290,14 +594,12 @@ def _logical_lines(text: str):
 
 
 def _parse_by_line(text: str, file: str, diags: Diagnostics) -> Netlist:
-    parser = _parser("line")
     stmts = []
     for lineno, body in _logical_lines(text):
         if not body.strip():
             continue
         try:
-            # pad with newlines so that line numbers in tokens are right
-            stmt = _run(parser, body + "\n", file)
+            stmt = _run("line", body + "\n", file)
         except UnexpectedInput as e:
             col = getattr(e, "column", 1) or 1
             width = len(str(getattr(e, "token", "") or "x")) if isinstance(e, UnexpectedToken) else 1
@@ -308,7 +610,12 @@ def _parse_by_line(text: str, file: str, diags: Diagnostics) -> Netlist:
                 loc = d.loc and Loc(file, lineno, d.loc.col, d.loc.width)
                 diags.items.append(type(d)(d.severity, loc, d.message))
             continue
-        stmts.append(_relocate(stmt, lineno))
+        too_deep = [e for e in _exprs(stmt) if ex.depth(e) > MAX_EXPR_DEPTH]
+        for e in too_deep:
+            diags.error(Loc(file, lineno, e.loc.col, e.loc.width),
+                        f"expression nested deeper than {MAX_EXPR_DEPTH} levels")
+        if not too_deep:
+            stmts.append(_relocate(stmt, lineno))
     diags.check()
     return Netlist(file, text, stmts)
 

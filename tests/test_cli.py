@@ -57,7 +57,7 @@ def test_at_option(cli, netlist):
     ("signal VS (a, gnd) 1 V\nuse amp X1 (a, gnd)\noutput (a, gnd)\n", "unknown block"),
     ("resistor R1 (a, gnd) 1k\noutput (a, gnd)\n", "no signal"),
     ("signal VS (a, gnd) 1 V\nresistor R1 (a, gnd) 1k\n", "no output port"),
-    ("signal VS (a, gnd) 1 V\nvcvs E1 (a, gnd) (a, gnd) 2\noutput (a, gnd)\n", "singular"),
+    ("signal VS (a, gnd) 1 V\nvcvs E1 (a, gnd) (a, gnd) 2\noutput (a, gnd)\n", "loop of voltage-defined"),
     ("signal VS (a, gnd) 1 V\nresistor R1 (a, gnd) __import__(1)\noutput (a, gnd)\n", "unknown function"),
 ])
 def test_bad_input_exit_2_gnu_form(cli, netlist, text, fragment):

@@ -39,19 +39,26 @@ def print_warnings(circuit) -> None:
 def write_file(path: str | Path, data: bytes | str, force: bool = False) -> None:
     """Write atomically (temporary file, then rename); refuse to replace a file without force."""
     p = Path(path)
+    if p.is_dir():
+        raise error(None, f"'{p}' is a folder, not a file name")
     if p.exists() and not force:
         raise error(None, f"'{p}' exists; use --force to replace it")
     if not p.parent.exists():
         raise error(None, f"folder '{p.parent}' does not exist")
     raw = data.encode("utf-8") if isinstance(data, str) else data
-    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", dir=p.parent)
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", dir=p.parent)
+    except OSError as e:
+        raise error(None, f"cannot write in '{p.parent}': {e.strerror or e}") from None
     try:
         with os.fdopen(fd, "wb") as f:
             f.write(raw)
         os.replace(tmp, p)
-    except BaseException:
+    except BaseException as exc:
         try:
             os.unlink(tmp)
         except OSError:
             pass
+        if isinstance(exc, OSError):  # disk full, permissions: bad input for the user, not a crash
+            raise error(None, f"cannot write '{p}': {exc.strerror or exc}") from None
         raise

@@ -67,6 +67,8 @@ def run(args) -> int:
     c = api.load(args.file)
     from ..bias import ensure_bias
     ensure_bias(c)  # devices given by DC parameters: bias first (refuses a device outside its region)
+    from ..topology import require_sound
+    require_sound(c, "ac")  # floating nodes, source loops, cut sets: named before any solve
     quantity = args.quantity or default_quantity(c)
     freqs = frequencies(f_from, f_to, args.points, args.per_decade)
     if len(freqs) > MAX_POINTS:

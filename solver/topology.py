@@ -1,0 +1,537 @@
+"""Topology checks before any solve: mistakes that make the MNA system singular, named in netlist terms.
+
+Modified nodal analysis fails in a few structural ways, each with a plain
+graph reading (see the references):
+
+* a group of nodes with no path to the reference node (floating): nothing
+  fixes their potential;
+* a group connected to the rest only through current-defined branches (current
+  supplies, a current signal, vccs/cccs outputs, a transistor's gm): a *cut set*
+  of current sources, so Kirchhoff's current law on the cut cannot hold in
+  general and the potentials are undefined;
+* a *loop* of voltage-defined branches (voltage supplies, which are shorts in
+  the small-signal view, the voltage signal, vcvs/ccvs outputs, op-amp outputs,
+  inductors at DC): Kirchhoff's voltage law fixes the same voltage twice;
+* a node with a single connection (a warning: it carries no current, and is
+  usually a misspelt node name).
+
+Two views: the AC view (any frequency above zero: capacitors and inductors are
+impedances) and the DC view (capacitors open, inductors short), used by a solve
+at 0 Hz and by the bias solve.
+
+Policy for values (checked in :mod:`solver.elaborate`): a zero R or L is an
+error (it is a short: join the nodes), a zero C is an error (an open: leave it
+out), a zero load is an error; a negative R, C, L or load is allowed (active
+models use them) with a warning.
+
+References
+----------
+C.-W. Ho, A. E. Ruehli, P. A. Brennan, "The modified nodal approach to network
+analysis", IEEE Trans. Circuits and Systems 22(6), 1975 (from memory).
+L. O. Chua, P.-M. Lin, *Computer-Aided Analysis of Electronic Circuits*,
+Prentice-Hall 1975, chapter on the topological conditions for a unique
+solution: no loops of voltage sources, no cut sets of current sources (from memory).
+"""
+from __future__ import annotations
+
+import difflib
+from typing import NamedTuple
+
+from .diagnostics import MAX_REPORTED, Diagnostic, Loc
+from .elements import Element, Nullor
+from .model import Circuit
+
+GND = "\0gnd"  # every reference-node alias maps here
+MAX_LISTED = 8
+
+
+class Branch(NamedTuple):
+    """One element as the graph checks see it.
+
+    name   -- the name shown to the user (``R1``, ``Q1.gm``, ``VS``)
+    kind   -- "r" (an impedance), "v" (voltage-defined), "i" (current-defined)
+    nodes  -- the two nodes the branch joins
+    senses -- control terminals: they read a voltage and draw no current
+    """
+
+    name: str
+    kind: str
+    nodes: tuple[str, str]
+    loc: Loc | None
+    senses: tuple[str, ...] = ()
+    origin: str = ""  # the netlist element or device it came from
+
+
+def branches(elements: list[Element], ground: set[str], view: str = "ac") -> list[Branch]:
+    """The graph branches of primitive elements in the AC or the DC view.
+
+    Examples
+    --------
+    >>> from solver.elements import Capacitor, Resistor
+    >>> [b.kind for b in branches([Resistor("R1", ("a", "0"), 1.0), Capacitor("C1", ("a", "0"), 1.0)], {"0"})]
+    ['r', 'r']
+    >>> [b.name for b in branches([Capacitor("C1", ("a", "0"), 1.0)], {"0"}, view="dc")]
+    []
+    """
+    canon = (lambda n: GND if n in ground else n)  # noqa: E731
+    out = []
+    for e in elements:
+        kind = e.branch_kind
+        if e.reactive:
+            if view == "dc":
+                if kind == "r":
+                    continue  # a capacitor is open at DC
+            else:
+                kind = "r"  # capacitors and inductors are impedances at any frequency above zero
+        if isinstance(e, Nullor):
+            out_node, inp, inn = e.nodes
+            out.append(Branch(e.name, "v", (canon(out_node), GND), e.loc, (canon(inp), canon(inn)), e.origin))
+            continue
+        senses = tuple(canon(n) for n in getattr(e, "ctrl", ()) or ())
+        out.append(Branch(e.name, kind, (canon(e.nodes[0]), canon(e.nodes[1])), e.loc, senses, e.origin))
+    return out
+
+
+class _Sets:
+    """Union-find (disjoint sets) with path halving."""
+
+    def __init__(self):
+        self.parent: dict[str, str] = {}
+
+    def find(self, x: str) -> str:
+        p = self.parent
+        p.setdefault(x, x)
+        while p[x] != x:
+            p[x] = p[p[x]]
+            x = p[x]
+        return x
+
+    def union(self, a: str, b: str) -> bool:
+        ra, rb = self.find(a), self.find(b)
+        if ra == rb:
+            return False
+        self.parent[ra] = rb
+        return True
+
+
+def _show(node: str, circuit: Circuit) -> str:
+    if node == GND:
+        return "the reference node"
+    if node == "{sig}":
+        return f"the inner node of signal '{circuit.signal.name}'" if circuit.signal else "the signal's inner node"
+    return f"'{node}'"
+
+
+def _names(items, key=str) -> str:
+    items = list(items)
+    shown = ", ".join(key(x) for x in items[:MAX_LISTED])
+    return shown + (f" and {len(items) - MAX_LISTED} more" if len(items) > MAX_LISTED else "")
+
+
+def _label(b: Branch) -> str:
+    return f"{b.name} (line {b.loc.line})" if b.loc else b.name
+
+
+def _first_loc(bs, fallback: Loc) -> Loc:
+    locs = [b.loc for b in bs if b.loc is not None]
+    return min(locs, key=lambda l: (l.line, l.col)) if locs else fallback
+
+
+def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_nodes=(),
+                   context: str = "", single: bool = True) -> list[Diagnostic]:
+    """All graph checks on one set of branches; errors and warnings in netlist terms.
+
+    Linear in the number of branches (union-find, one pass per check), so it
+    costs about as much as stamping the circuit.
+
+    Parameters
+    ----------
+    bs : list of Branch
+    circuit : Circuit
+        For names and the fallback location.
+    view : "ac" or "dc"
+        Only changes the wording (the branches already reflect the view).
+    port_nodes : iterable of str
+        Nodes that a port observes: they count as one more connection and must exist.
+    context : str
+        Appended to each message (e.g. " without the load").
+    single : bool
+        Also warn about nodes with a single connection.
+
+    Returns
+    -------
+    list of Diagnostic
+    """
+    where = Loc(circuit.file, 1, 1)
+    dc = " in the DC view (capacitors open, inductors shorted)" if view == "dc" and circuit.reactive else ""
+    diags: list[Diagnostic] = []
+    ground = circuit.ground
+    ports = [GND if n in ground else n for n in port_nodes]
+
+    # 1. a node that only a port observes does not exist in the system
+    present = {GND}
+    for b in bs:
+        present.update(b.nodes)
+        present.update(b.senses)
+    for n in dict.fromkeys(ports):
+        if n not in present:
+            diags.append(Diagnostic("error", circuit.output_loc or (circuit.load.loc if circuit.load else where),
+                                    f"port node {_show(n, circuit)} is not connected to any element{context}{dc}"))
+    if diags:
+        return diags
+
+    # 2. loops of voltage-defined branches
+    vsets, vadj = _Sets(), {}
+    for b in bs:
+        if b.kind != "v":
+            continue
+        a, c = b.nodes
+        if a == c or not vsets.union(a, c):
+            loop = [b] if a == c else _path(vadj, a, c) + [b]
+            diags.append(Diagnostic(
+                "error", b.loc or where,
+                f"a loop of voltage-defined branches{dc}: {_names(loop, _label)}; Kirchhoff's voltage law "
+                f"fixes the same voltage twice (add a resistance in the loop or remove one source){context}"))
+            continue
+        vadj.setdefault(a, []).append((c, b))
+        vadj.setdefault(c, []).append((a, b))
+
+    # 3. groups with no path to the reference, through impedances and voltage-defined branches
+    sets = _Sets()
+    find = sets.find
+    for n in present:
+        find(n)
+    for b in bs:
+        if b.kind != "i":
+            sets.union(*b.nodes)
+    root = find(GND)
+    members: dict[str, list[str]] = {}
+    for n in present:
+        r = find(n)
+        if r != root:
+            members.setdefault(r, []).append(n)
+    if members:
+        inner: dict[str, list[Branch]] = {}
+        cut: dict[str, list[Branch]] = {}
+        sensed: dict[str, list[Branch]] = {}
+        for b in bs:
+            ra, rb = find(b.nodes[0]), find(b.nodes[1])
+            if b.kind != "i":
+                if ra != root:
+                    inner.setdefault(ra, []).append(b)
+            elif ra != rb:
+                for r in {ra, rb} - {root}:
+                    cut.setdefault(r, []).append(b)
+            for r in {find(n) for n in b.senses} - {root, ra, rb}:
+                sensed.setdefault(r, []).append(b)
+        for r, nodes in list(members.items())[:MAX_REPORTED]:
+            shown = _names(sorted(nodes), lambda n: _show(n, circuit))
+            one = len(nodes) == 1
+            what = "node" if one else "nodes"
+            if r in cut:
+                c_ = cut[r]
+                msg = (f"{what} {shown} connect{'s' if one else ''} to the rest of the circuit only through "
+                       f"current-defined branch{'es' if len(c_) > 1 else ''} {_names(c_, _label)}{dc}: a cut set "
+                       f"of current sources leaves {'its' if one else 'their'} voltage undefined (add a "
+                       f"resistance to the reference, e.g. a transistor's ro or a bias resistor){context}")
+                loc = _first_loc(c_, where)
+            elif r in inner:
+                msg = (f"{what} {shown} {'has' if one else 'have'} no path to the reference node{dc}{context}"
+                       f" (joined by {_names(inner[r], _label)})")
+                loc = _first_loc(inner[r], where)
+            else:
+                s_ = sensed.get(r, [])
+                msg = (f"{what} {shown} {'is' if one else 'are'} only sensed by {_names(s_, _label)}"
+                       f" (a control input draws no current): nothing sets {'its' if one else 'their'}"
+                       f" voltage{dc}{context}")
+                loc = _first_loc(s_, where)
+            diags.append(Diagnostic("error", loc, msg))
+
+    # 4. nodes with a single connection (warnings), with a spelling hint
+    if single:
+        count: dict[str, int] = {}
+        first: dict[str, Branch] = {}
+        for b in bs:
+            for n in {*b.nodes, *b.senses}:
+                count[n] = count.get(n, 0) + 1
+                first.setdefault(n, b)
+        for n in ports:
+            count[n] = count.get(n, 0) + 1
+        lonely = [n for n, k in count.items() if k == 1 and n != GND and not n.startswith("{") and ":" not in n]
+        busy = [n for n, k in count.items() if k >= 2 and n != GND] if len(lonely) <= MAX_REPORTED else []
+        at = _node_locs(circuit) if lonely else {}
+        for n in lonely[:MAX_REPORTED]:
+            b = first[n]
+            hint = difflib.get_close_matches(n, busy, n=1) if busy else []
+            diags.append(Diagnostic(
+                "warning", at.get((b.origin, n)) or b.loc or where,
+                f"node {_show(n, circuit)} has a single connection ({_label(b)}): no current flows "
+                f"through it{'; did you mean ' + repr(hint[0]) + '?' if hint else ''}"))
+    return diags
+
+
+def _path(adj: dict, a: str, b: str) -> list[Branch]:
+    """The branches on the (unique) path from a to b in a forest, by breadth-first search."""
+    prev = {a: None}
+    todo = [a]
+    while todo:
+        nxt = []
+        for n in todo:
+            for m, br in adj.get(n, ()):
+                if m not in prev:
+                    prev[m] = (n, br)
+                    nxt.append(m)
+        todo = nxt
+        if b in prev:
+            break
+    out = []
+    while prev.get(b):
+        b, br = prev[b]
+        out.append(br)
+    return out[::-1]
+
+
+def check(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
+    """Topology diagnostics of a circuit in the configurations the port analysis solves.
+
+    The loaded drive (signal and load) and, with a load, the unloaded drive are
+    checked; messages of the second say "without the load". Devices whose
+    operating point is not known yet are left out (the bias solve checks them).
+
+    Parameters
+    ----------
+    circuit : Circuit
+    view : "ac" or "dc"
+
+    Returns
+    -------
+    list of Diagnostic
+        Errors first, then warnings, without repeats.
+
+    Examples
+    --------
+    >>> from solver.api import loads
+    >>> c = loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nresistor R2 (c, d) 1k\\nload RL (a, gnd) 1k\\n")
+    >>> [d.message.split(":")[0] for d in check(c) if d.severity == "error"]
+    ["nodes 'c', 'd' have no path to the reference node (joined by R2 (line 3))"]
+    """
+    from .ports import load_element, signal_elements, small_signal_elements
+    if circuit.signal is None:
+        return []
+    base = small_signal_elements(_biased_part(circuit))
+    port_nodes = tuple(circuit.output_port) if (circuit.load or circuit.output) else ()
+    configs = []
+    if circuit.load is not None:
+        configs.append((base + signal_elements(circuit) + [load_element(circuit)], ""))
+        configs.append((base + signal_elements(circuit), " without the load"))
+    else:
+        configs.append((base + signal_elements(circuit), ""))
+    seen, errors, warnings = set(), [], []
+    for i, (elements, context) in enumerate(configs):
+        # single connections are a property of the netlist: counted once, in the AC view
+        found = check_branches(branches(elements, circuit.ground, view), circuit, view, port_nodes, context,
+                               single=(i == 0 and view == "ac"))
+        if i == 0 and view != "ac":
+            found += [d for d in check_branches(branches(elements, circuit.ground, "ac"), circuit, "ac",
+                                                port_nodes, "", single=True) if d.severity == "warning"]
+        for d in found:
+            key = d.message.replace(context, "") if context else d.message
+            if key in seen:
+                continue
+            seen.add(key)
+            (errors if d.severity == "error" else warnings).append(d)
+        if errors:
+            break  # the loaded configuration's errors explain the unloaded ones
+    by_line = lambda d: (d.loc.line, d.loc.col) if d.loc else (0, 0)  # noqa: E731
+    return sorted(errors, key=by_line) + sorted(warnings, key=by_line)
+
+
+def _biased_part(c: Circuit) -> Circuit:
+    """The circuit without the devices whose operating point is not known yet (bias pending)."""
+    import dataclasses
+    if all(d.ss for d in c.devices):
+        return c
+    return dataclasses.replace(c, devices=[d for d in c.devices if d.ss])
+
+
+def require_sound(circuit: Circuit, view: str = "ac") -> None:
+    """Run :func:`check`; raise InputError with every error, keep warnings on the circuit.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    view : "ac" or "dc"
+        "dc" for a solve at 0 Hz and for the bias solve, "ac" otherwise.
+
+    Raises
+    ------
+    InputError
+        With every error (and the circuit's warnings), in line order. Devices
+        without an operating point are reported first, on their own.
+
+    Notes
+    -----
+    Warnings are added to ``circuit.warnings`` once (the commands print them).
+
+    Examples
+    --------
+    >>> from solver.api import loads
+    >>> c = loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nload RL (a, gnd) 1k\\n")
+    >>> require_sound(c)
+    >>> [d.message.split(" (")[0] for d in c.warnings]
+    ["node 'b' has a single connection"]
+    """
+    from .diagnostics import InputError
+    errors = []
+    for dev in circuit.devices:
+        if not dev.ss:  # the bias solve fills it; without one the model is unknown
+            what = {"npn": "ic=", "pnp": "ic=", "nmos": "id= and vov=", "pmos": "id= and vov="}.get(dev.kind, "id=")
+            errors.append(Diagnostic("error", dev.loc or Loc(circuit.file, 1, 1),
+                                     f"{dev.name} has no operating point, so its small-signal model is unknown: "
+                                     f"give {what} (or gm=), or solve the bias first"))
+    if errors:
+        raise InputError(errors + [d for d in circuit.warnings if d.severity == "warning"])
+    diags = check(circuit, view)
+    errors = [d for d in diags if d.severity == "error"]
+    if errors:
+        raise InputError(errors + [d for d in circuit.warnings + diags if d.severity == "warning"])
+    for d in diags:
+        if d not in circuit.warnings:
+            circuit.warnings.append(d)
+
+
+def _drive_systems(c: Circuit):
+    """(description, System) of the solves the port analysis makes, loaded one first."""
+    from .mna import assemble
+    from .ports import load_element, signal_elements, small_signal_elements
+    base = small_signal_elements(c)
+    if c.load is not None:
+        yield "with the load", assemble(base + signal_elements(c) + [load_element(c)], c.ground)
+    yield "without the load", assemble(base + signal_elements(c), c.ground)
+
+
+def _unknown(name: str, c: Circuit, kinds: dict | None = None) -> str:
+    """``v(a)`` -> node 'a'; ``i(U1)`` -> the output current of op-amp U1; ``i(V1)`` -> the current of V1."""
+    inner = name[2:-1]
+    if name.startswith("v("):
+        return f"node {_show(inner, c)}"
+    if (kinds or {}).get(inner) is Nullor:
+        return f"the output current of op-amp {inner}"
+    return f"the current of {inner}"
+
+
+def _equation(name: str, c: Circuit, kinds: dict | None = None) -> str:
+    """The row of an unknown: KCL at a node, or the branch law of a voltage-defined element."""
+    inner = name[2:-1]
+    if name.startswith("v("):
+        return f"KCL at {_show(inner, c)}"
+    if (kinds or {}).get(inner) is Nullor:
+        return f"the input condition of op-amp {inner} (v+ = v-)"
+    return f"the voltage law of {inner}"
+
+
+def explain_singular(c: Circuit, frequency_hz: float, what: str) -> list[Diagnostic]:
+    """Diagnostics for a system that the checks passed but that cannot be solved (+ the circuit's warnings).
+
+    Names the unknowns no equation determines and the dependent equations, from
+    :func:`solver.mna.diagnose` (structural rank by bipartite matching, then the
+    null space), for the first configuration that is singular.
+
+    Parameters
+    ----------
+    c : Circuit
+    frequency_hz : float
+        The analysis frequency the solve failed at.
+    what : str
+        The port analysis' own message, used when no drive configuration is singular.
+
+    Returns
+    -------
+    list of Diagnostic
+        One error, located at the first element on an undetermined node, then the warnings.
+    """
+    import math
+
+    from .mna import SingularSystem, diagnose
+    s = 2j * math.pi * frequency_hz
+    where = c.signal.loc if c.signal and c.signal.loc else Loc(c.file, 1, 1)
+    for desc, system in _drive_systems(c):
+        try:
+            system.solve(s)
+            continue
+        except SingularSystem:
+            pass
+        info = diagnose(system, s)
+        kind = "structurally singular (the pattern of connections alone)" if info.structural else \
+            "numerically singular (the element values cancel)"
+        msg = f"the circuit {desc} is {kind} at {frequency_hz:g} Hz: rank {info.rank} of {info.size}"
+        kinds = {e.name: type(e) for e in system.stamper.elements if e.needs_branch}
+        if info.undetermined:
+            msg += f"; undetermined: {_names(info.undetermined, lambda u: _unknown(u, c, kinds))}"
+        if info.redundant:
+            msg += f"; dependent equations: {_names(info.redundant, lambda u: _equation(u, c, kinds))}"
+        if not info.undetermined and not info.redundant:
+            msg += " (too large for the dense analysis that names the nodes)"
+        nodes = {u[2:-1] for u in info.undetermined if u.startswith("v(")}
+        near = [e.loc for e in system.stamper.elements if e.loc and nodes & set(e.nodes)]
+        return [Diagnostic("error", min(near, key=lambda l: (l.line, l.col)) if near else where, msg)] + c.warnings
+    return [Diagnostic("error", where, f"{what} (the system is singular at the output port test)")] + c.warnings
+
+
+def warn_conditioning(c: Circuit, frequency_hz: float) -> None:
+    """Warn (once, on ``circuit.warnings``) when the loaded system is ill-conditioned.
+
+    Parameters
+    ----------
+    c : Circuit
+    frequency_hz : float
+
+    Notes
+    -----
+    The threshold is :data:`solver.mna.COND_WARN` on the row- and
+    column-equilibrated matrix, so that mixing siemens, farads and unit
+    entries alone does not trigger it.
+    """
+    import math
+
+    from .mna import COND_WARN, condition_estimate
+    s = 2j * math.pi * frequency_hz
+    desc, system = next(iter(_drive_systems(c)))
+    cond = condition_estimate(system, s)
+    if cond > COND_WARN:
+        where = c.signal.loc if c.signal and c.signal.loc else Loc(c.file, 1, 1)
+        d = Diagnostic("warning", where, f"the system {desc} is ill-conditioned at {frequency_hz:g} Hz "
+                       f"(condition estimate {cond:.2g} > {COND_WARN:.0g}): results may have few correct "
+                       "digits; look for element values many decades apart or nearly cancelling")
+        if d not in c.warnings:
+            c.warnings.append(d)
+
+
+
+def _node_locs(c: Circuit) -> dict[tuple[str, str], Loc]:
+    """(element or device full name, node) -> where the node is written in its statement.
+
+    Read from the elaborated scopes (:class:`solver.elaborate.Resolver`), so that a
+    warning about a node can put its caret under the node name itself.
+    """
+    res = c.resolver
+    top = getattr(res, "top", None)
+    out: dict[tuple[str, str], Loc] = {}
+    if top is None:
+        return out
+    todo, seen = [top], set()
+    while todo:
+        scope = todo.pop()
+        if id(scope) in seen:
+            continue
+        seen.add(id(scope))
+        for entry in scope.names.values():
+            if entry.kind == "instance" and entry.scope is not None:
+                todo.append(entry.scope)
+            stmt = entry.stmt
+            if stmt is None or entry.scope is None:
+                continue
+            for group in getattr(stmt, "groups", ()):
+                for node in group:
+                    out.setdefault((entry.full, res.node(node, entry.scope)), node.loc)
+    return out
