@@ -32,5 +32,6 @@ def run(args) -> int:
     if args.json:
         emit_json(result.to_json())
     else:
-        print(solve_report(result))
+        from ..symbolic.quick import quick_symbolic
+        print(solve_report(result, symbolic=quick_symbolic(c)))
     return 0

@@ -191,7 +191,7 @@ def to_sympy(num: dict, den: dict, gens: list[str]):
 
     n, d = poly(num), poly(den)
     if d == 0:
-        return sympy.zoo if n != 0 else sympy.nan
+        return sympy.oo if n != 0 else sympy.nan  # an open port: unbounded
     return n / d
 
 

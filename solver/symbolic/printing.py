@@ -231,6 +231,9 @@ def _printers():
         def _print_ImaginaryUnit(self, expr):
             return "j"
 
+        def _print_ComplexInfinity(self, expr):
+            return "oo"
+
     class TexPrinter(LatexPrinter):
         def _print_Symbol(self, expr, style="plain"):
             return latex_name(expr.name)
@@ -245,6 +248,9 @@ def _printers():
             if expr.q > 10**6:
                 return self._print_Float(expr.evalf(6))
             return super()._print_Rational(expr)
+
+        def _print_ComplexInfinity(self, expr):
+            return r"\infty"
 
     return PlainPrinter, TexPrinter
 

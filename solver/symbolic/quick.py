@@ -1,0 +1,36 @@
+"""The symbolic lines of ``portwise solve``: only for circuits small enough to be quick.
+
+Guards (common practice, no source): at most MAX_UNKNOWNS MNA unknowns and
+MAX_SYMBOLS symbols, and a printed form of at most MAX_CHARS characters per
+quantity; anything larger is left to ``portwise derive`` with ``--keep``.
+"""
+from __future__ import annotations
+
+from ..model import Circuit
+
+MAX_UNKNOWNS = 8
+MAX_SYMBOLS = 10
+MAX_CHARS = 120
+
+
+def quick_symbolic(c: Circuit) -> dict[str, str]:
+    """{quantity: plain text} for a small circuit, {} otherwise (or on any symbolic failure)."""
+    from ..mna import Stamper
+    from .ports import circuit_symbols, scenario_elements
+    try:
+        if len(circuit_symbols(c)) > MAX_SYMBOLS:
+            return {}
+        if Stamper(scenario_elements(c), c.ground).size > MAX_UNKNOWNS:
+            return {}
+        from .derive import derive
+        current = c.signal.kind == "A"
+        qs = ["Rin", "Rout", "Avo", "Av", "Zt" if current else "Gv", "Zto" if current else "Gvo"]
+        if c.load is not None:
+            qs.append("Ai")
+        out = {}
+        for d in derive(c, qs):
+            if len(d.plain) <= MAX_CHARS:
+                out[d.quantity] = d.plain
+        return out
+    except Exception:  # the numeric report stands on its own; symbolic lines are an extra
+        return {}
