@@ -142,19 +142,22 @@ def natural(rf: RationalFunction, symbols: list[str]):
     idx = {n: i for i, n in enumerate(R.names)}
     gens = [S_NAME] + list(symbols)
     nd, dd = R.to_dict(rf.num), R.to_dict(rf.den)
-    top = {}
+    direct = [idx.get(x) for x in symbols]
+    inverse = [idx.get("1/" + x) for x in symbols]
+    top = [0] * len(symbols)
     for d in (nd, dd):
         for m in d:
-            for x in symbols:
-                e = m[idx["1/" + x]]
-                if e > top.get(x, 0):
-                    top[x] = e
+            for j, i in enumerate(inverse):
+                if i is not None and m[i] > top[j]:
+                    top[j] = m[i]
+    si = idx[S_NAME]
 
     def conv(d):
         out = {}
         for m, c in d.items():
-            e = [m[idx[S_NAME]]] + [m[idx[x]] + top.get(x, 0) - m[idx["1/" + x]] for x in symbols]
-            out[tuple(e)] = out.get(tuple(e), 0) + c
+            e = (m[si],) + tuple((m[a] if a is not None else 0) + t - (m[b] if b is not None else 0)
+                                 for a, b, t in zip(direct, inverse, top))
+            out[e] = out.get(e, 0) + c
         return {k: v for k, v in out.items() if v}
 
     n2, d2 = conv(nd), conv(dd)

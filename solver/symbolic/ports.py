@@ -23,14 +23,41 @@ from .stamper import S_NAME, SymbolicStamper, variable_names
 TEST = "{test}"
 
 
-@dataclass
 class SymbolicQuantity:
-    """An exact port quantity: num/den over ``gens`` (``s`` then circuit symbol names)."""
+    """An exact port quantity: num/den over ``gens`` (``s`` then circuit symbol names).
 
-    name: str
-    num: dict
-    den: dict
-    gens: list[str]
+    The engine's result stays an expanded ratio of ring polynomials (in ``X`` and
+    ``1/X``); the dicts ``num``/``den`` in the circuit's own symbols are made on
+    first use, since for large circuits that conversion costs more than the solve.
+    """
+
+    def __init__(self, name: str, rf: RationalFunction, symbols: list[str]):
+        self.name = name
+        self.rf = rf
+        self._symbols = list(symbols)
+        self._nat = None
+
+    def _natural(self):
+        if self._nat is None:
+            self._nat = natural(self.rf, self._symbols)
+        return self._nat
+
+    @property
+    def num(self) -> dict:
+        return self._natural()[0]
+
+    @property
+    def den(self) -> dict:
+        return self._natural()[1]
+
+    @property
+    def gens(self) -> list[str]:
+        return [S_NAME] + self._symbols
+
+    @property
+    def ring_terms(self) -> tuple[int, int]:
+        """Terms of the engine's numerator and denominator (before merging X and 1/X)."""
+        return len(self.rf.num), len(self.rf.den)
 
     def expr(self):
         """The sympy expression (symbols from :func:`solver.symbolic.engine.symbol`)."""
@@ -164,9 +191,9 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
     'R1/(R1 + VS.rs)'
     """
     kept = choose_symbols(c, keep, numeric)
-    ring = Ring(variable_names(kept))
-    domain = _compact_domain(ring, kept) if compact else None
     base = small_signal_elements(c)
+    ring = Ring(variable_names(kept, [base + signal_elements(c, 1.0) + ([load_element(c)] if c.load else [])]))
+    domain = _compact_domain(ring, kept) if compact else None
     current = c.signal.kind == "A"
     names = ["Rin", "Rout", "Avo", "Av", "Zt" if current else "Gv", "Zto" if current else "Gvo", "Ai"]
     if c.load is None:
@@ -227,8 +254,7 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
         if domain is not None:
             result[q] = v
         else:
-            num, den, gens = natural(v.cancel(), kept)
-            result[q] = SymbolicQuantity(q, num, den, gens)
+            result[q] = SymbolicQuantity(q, v.cancel(), kept)
     return result
 
 

@@ -18,12 +18,47 @@ from .ring import Ring, exact_fraction
 S_NAME = "s"
 
 
-def variable_names(symbols) -> list[str]:
-    """Ring generators: ``s``, then ``X`` and ``1/X`` for every kept symbol."""
+def variable_names(symbols, element_lists=None) -> list[str]:
+    """Ring generators: ``s``, then ``X`` and/or ``1/X`` for every kept symbol.
+
+    With ``element_lists`` (the scenarios to stamp), only the forms the stamps
+    actually ask for are made (a resistor needs only ``1/R``): fewer generators
+    make every later conversion cheaper.
+    """
+    symbols = list(symbols)
+    if element_lists is None:
+        used = {(n, k) for n in symbols for k in ("v", "r")}
+    else:
+        used = set()
+        for els in element_lists:
+            probe = _Probe(els, set())  # numbering only; ground does not matter here
+            probe.stamp_all()
+            used |= probe.used
     out = [S_NAME]
     for name in symbols:
-        out += [name, "1/" + name]
+        if (name, "v") in used:
+            out.append(name)
+        if (name, "r") in used:
+            out.append("1/" + name)
     return out
+
+
+class _Probe(Stamper):
+    """Records which symbols the stamps read by value ("v") and by reciprocal ("r")."""
+
+    def __init__(self, elements, ground):
+        super().__init__(elements, ground)
+        self.used: set[tuple[str, str]] = set()
+
+    def value(self, e):
+        if e.symbol:
+            self.used.add((e.symbol, "v"))
+        return 1.0
+
+    def recip(self, e):
+        if e.symbol:
+            self.used.add((e.symbol, "r"))
+        return 1.0
 
 
 class SymbolicStamper(Stamper):
@@ -61,12 +96,12 @@ class SymbolicStamper(Stamper):
         return exact_fraction(x)
 
     def value(self, e: Element):
-        if e.symbol in self.keep:
+        if e.symbol in self.keep and e.symbol in self._index:
             return self.ring.gens[self._index[e.symbol]]
         return self.ring.const(self._number(e.value))
 
     def recip(self, e: Element):
-        if e.symbol in self.keep:
+        if e.symbol in self.keep and "1/" + e.symbol in self._index:
             return self.ring.gens[self._index["1/" + e.symbol]]
         return self.ring.const(1 / self._number(e.value))
 
