@@ -344,3 +344,16 @@ def test_dominant_terms_error_bound(tol):
     err = abs(pruned_value - ref) / abs(ref)
     assert err == pytest.approx(p.error_at_f, rel=1e-6, abs=1e-12)
     assert err <= p.bound_at_f + 1e-12
+
+
+def test_pure_python_backend_gives_the_same_quantities(monkeypatch):
+    # the sympy PolyRing fallback (no python-flint) must give the same exact results
+    import solver.symbolic.ring as ring
+    net = ("signal VS (b, gnd) 1 mV, rs=1k\nnpn Q1 (c, b, e) gm=40m, rpi=2k5, ro=100k, cmu=1p\n"
+           "resistor RE (e, gnd) 100\nresistor RC (c, gnd) 5k\nload RL (c, gnd) 10k\n")
+    monkeypatch.setattr(ring, "DEFAULT_BACKEND", "sympy")
+    slow = sq(net)
+    monkeypatch.setattr(ring, "DEFAULT_BACKEND", None)
+    fast = sq(net)
+    for k in fast:
+        assert same(slow[k], fast[k]), k

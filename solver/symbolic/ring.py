@@ -28,6 +28,10 @@ def exact_fraction(x: float) -> Fraction:
     return Fraction(repr(float(x)))  # trusted: repr of a float the program holds, not user text
 
 
+#: None: flint when installed; "sympy" forces the fallback (tests use it to cover both)
+DEFAULT_BACKEND: str | None = None
+
+
 def have_flint() -> bool:
     try:
         import flint  # noqa: F401
@@ -56,7 +60,7 @@ class Ring:
     def __init__(self, names, backend: str | None = None):
         self.names = tuple(names)
         if backend is None:
-            backend = "flint" if have_flint() else "sympy"
+            backend = DEFAULT_BACKEND or ("flint" if have_flint() else "sympy")
         self.backend = backend
         if backend == "flint":
             import flint
