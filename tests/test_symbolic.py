@@ -357,3 +357,17 @@ def test_pure_python_backend_gives_the_same_quantities(monkeypatch):
     fast = sq(net)
     for k in fast:
         assert same(slow[k], fast[k]), k
+
+
+def test_parallel_with_a_series_branch_round_trips():
+    # R1 || (R2 + R3): the resistance seen into a divider (series/parallel reduction, any
+    # circuits text, e.g. Sedra & Smith 7th ed., section 1.x, from memory)
+    from solver.parse import parse_expression
+    from solver.symbolic.claims import to_sympy
+    from solver.symbolic.derive import derive
+    c = solver.loads("signal VS (a, gnd) 1 mV\nresistor R1 (a, gnd) 10k\nresistor R2 (a, b) 1k\n"
+                     "resistor R3 (b, gnd) 5k\noutput (b, gnd)\n")
+    (d,) = derive(c, ["Rin"])
+    assert d.plain == "R1 || (R2 + R3)"
+    R1, R2, R3 = S("R1"), S("R2"), S("R3")
+    assert same(to_sympy(parse_expression(d.plain), c), R1 * (R2 + R3) / (R1 + R2 + R3))

@@ -150,6 +150,31 @@ def _try_factor(D, n0: dict, dims):
     return M, [_mono_expr(x) for x in xs], k
 
 
+def _is_impedance_sum(A, dims) -> bool:
+    import sympy
+    for term in sympy.Add.make_args(A):
+        m = _monomial(term)
+        if m is None or not (m[0] > 0) or _dim(m[1], dims) != OHM:
+            return False
+    return True
+
+
+def _try_sum_branch(D, num_factors, n0: dict, dims):
+    """D = A + M with A a sum of impedances among the numerator factors and M a monomial
+    impedance dividing the numerator: then A*M/D = A || M. Returns (A, {symbol: exponent})."""
+    import sympy
+    for A in num_factors:
+        if not isinstance(A, sympy.Add) or not _is_impedance_sum(A, dims):
+            continue
+        rem = sympy.expand(D - A)
+        m = _monomial(rem) if rem != 0 else None
+        if m is None or m[0] != 1 or _dim(m[1], dims) != OHM:
+            continue
+        if all(n0.get(s, 0) >= e for s, e in m[1].items()) and all(e > 0 for e in m[1].values()):
+            return A, m[1]
+    return None
+
+
 def recognize_parallel(expr, dims: dict):
     """Rewrite parallel combinations of impedances as ``||`` nodes (see :func:`expand_par`).
 
@@ -192,6 +217,14 @@ def recognize_parallel(expr, dims: dict):
     pars, rest_den = [], []
     for D in d_factors:
         if isinstance(D, sympy.Add):
+            hit = _try_sum_branch(D, rest_num, n0, dims)
+            if hit is not None:
+                A, M = hit
+                rest_num.remove(A)
+                for s, e in M.items():
+                    n0[s] -= e
+                pars.append(Par()(*sorted([A, _mono_expr(M)], key=sympy.default_sort_key)))
+                continue
             hit = _try_factor(D, {s: e for s, e in n0.items() if e > 0}, dims)
             if hit is not None:
                 M, xs, k = hit
