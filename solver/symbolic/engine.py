@@ -136,39 +136,47 @@ def natural(rf: RationalFunction, symbols: list[str]):
 
     Both sides are multiplied by X^M, M the highest power of ``1/X`` that occurs,
     so the exponents stay non-negative. gens is ``[s] + symbols``; a common
-    monomial factor is divided out.
+    monomial factor is divided out. Exponent arithmetic is done on numpy arrays
+    (a 124,000-term denominator has millions of exponents).
     """
+    import numpy as np
     R = rf.ring
     idx = {n: i for i, n in enumerate(R.names)}
     gens = [S_NAME] + list(symbols)
-    nd, dd = R.to_dict(rf.num), R.to_dict(rf.den)
-    direct = [idx.get(x) for x in symbols]
-    inverse = [idx.get("1/" + x) for x in symbols]
-    top = [0] * len(symbols)
-    for d in (nd, dd):
-        for m in d:
-            for j, i in enumerate(inverse):
-                if i is not None and m[i] > top[j]:
-                    top[j] = m[i]
-    si = idx[S_NAME]
+    parts = [R.terms(rf.num), R.terms(rf.den)]
+    arrays = [np.array(e, dtype=np.int64).reshape(len(e), len(R.names)) for e, _ in parts]
+    both = np.vstack(arrays)
+    cols = []
+    for x in symbols:
+        a, b = idx.get(x), idx.get("1/" + x)
+        cols.append((a, b, int(both[:, b].max()) if b is not None and len(both) else 0))
 
-    def conv(d):
-        out = {}
-        for m, c in d.items():
-            e = (m[si],) + tuple((m[a] if a is not None else 0) + t - (m[b] if b is not None else 0)
-                                 for a, b, t in zip(direct, inverse, top))
-            out[e] = out.get(e, 0) + c
-        return {k: v for k, v in out.items() if v}
+    def conv(E):
+        out = np.zeros((E.shape[0], len(gens)), dtype=np.int64)
+        out[:, 0] = E[:, idx[S_NAME]]
+        for j, (a, b, top) in enumerate(cols, start=1):
+            col = np.full(E.shape[0], top, dtype=np.int64)
+            if a is not None:
+                col += E[:, a]
+            if b is not None:
+                col -= E[:, b]
+            out[:, j] = col
+        return out
 
-    n2, d2 = conv(nd), conv(dd)
+    nat = [conv(E) for E in arrays]
+    if all(len(E) for E in nat):
+        low = np.minimum(nat[0].min(axis=0), nat[1].min(axis=0))
+        nat = [E - low for E in nat]
+    dicts = []
+    for E, (_, coeffs) in zip(nat, parts):
+        d: dict = {}
+        for m, c in zip(map(tuple, E.tolist()), coeffs):
+            d[m] = d.get(m, 0) + c
+        dicts.append({k: v for k, v in d.items() if v})
+    n2, d2 = dicts
     if sum(1 for c in d2.values() if c < 0) * 2 > len(d2):  # write the denominator mostly positive
         n2 = {m: -c for m, c in n2.items()}
         d2 = {m: -c for m, c in d2.items()}
-    if n2 and d2:
-        low = [min(m[i] for d in (n2, d2) for m in d) for i in range(len(gens))]
-        if any(low):
-            shift = lambda d: {tuple(a - b for a, b in zip(m, low)): c for m, c in d.items()}  # noqa: E731
-            n2, d2 = shift(n2), shift(d2)
     return n2, d2, gens
 
 

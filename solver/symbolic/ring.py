@@ -99,17 +99,21 @@ class Ring:
         return self._ring.from_dict({tuple(m) + (0,) * pad: QQ(c.numerator, c.denominator)
                                      for m, c in d.items() if c})
 
+    def terms(self, p) -> tuple[list, list]:
+        """(exponent tuples, Fraction coefficients) of a polynomial, in matching order."""
+        n = len(self.names)
+        if self.backend == "flint":
+            exps = [tuple(map(int, m[:n])) for m in p.monoms()]
+            coeffs = [Fraction(int(c.p), int(c.q)) for c in p.coeffs()]
+            return exps, coeffs
+        items = list(p.items())
+        return ([tuple(m[:n]) for m, _ in items],
+                [Fraction(int(c.numerator), int(c.denominator)) for _, c in items])
+
     def to_dict(self, p) -> dict:
         """{exponent tuple: Fraction} of a polynomial."""
-        n = len(self.names)
-        out = {}
-        if self.backend == "flint":
-            for m, c in p.to_dict().items():
-                out[tuple(int(e) for e in m[:n])] = Fraction(int(c.p), int(c.q))
-        else:
-            for m, c in p.items():
-                out[tuple(m[:n])] = Fraction(int(c.numerator), int(c.denominator))
-        return out
+        exps, coeffs = self.terms(p)
+        return dict(zip(exps, coeffs))
 
     def nterms(self, p) -> int:
         return len(p)
