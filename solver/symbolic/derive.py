@@ -72,7 +72,7 @@ def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: f
     for q in quantities:
         sq = res[q]
         pruned = None
-        if dominant is not None:
+        if dominant is not None and sq.num and sq.den:  # 0 and unbounded quantities have no terms to drop
             pruned = prune(sq.num, sq.den, sq.gens, values, dominant, 2j * math.pi * frequency_hz)
             e = to_sympy(pruned.num, pruned.den, sq.gens)
         else:
