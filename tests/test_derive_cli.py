@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import json
 
+import pytest
 import sympy
 
 CE = """\
@@ -72,3 +73,21 @@ def test_solve_shows_symbolic_forms_for_small_circuits(cli, netlist):
     assert r.returncode == 0, r.stderr
     assert "= -Q1.gm*(Q1.ro || RC || RL)" in r.stdout
     assert "= Q1.ro || RC" in r.stdout
+
+
+def test_expand_bias_matches_the_numeric_engine(cli):
+    # gm = ic/V_T, ro = va/ic (Sedra & Smith 7th ed., 7.2.1-7.2.4, from memory); V_T = kT/q with
+    # CODATA constants (scipy.constants) at the default 300 K
+    from scipy.constants import elementary_charge, k
+    import solver
+    from conftest import CIRCUITS
+    r = cli("derive", CIRCUITS / "hydrophone_preamp.pw", "Av", "--expand-bias", "--json")
+    assert r.returncode == 0, r.stderr
+    d = json.loads(r.stdout)
+    assert "Q1.ic" in d["symbols"].values() and "V_T" in d["symbols"].values()
+    values = {"Q1_ic": 0.5e-3, "Q1_va": 60.0, "V_T": k * 300.0 / elementary_charge, "RC": 10e3, "RF": 22e3}
+    loc = {name: sympy.Symbol(name, positive=True) for name in d["symbols"]}
+    e = sympy.parse_expr(d["sympy"], local_dict=loc)  # trusted: the program's own output
+    got = float(e.subs({loc[n]: v for n, v in values.items() if n in loc}))
+    ref = solver.solve(solver.load(CIRCUITS / "hydrophone_preamp.pw")).quantities["Av"].real
+    assert got == pytest.approx(ref, rel=1e-9)

@@ -42,6 +42,8 @@ def add_arguments(p) -> None:
                    help="take a limit, e.g. Q1.ro=oo (repeatable, applied in order)")
     p.add_argument("--dominant", metavar="TOL", help="drop terms below TOL (e.g. 5%% or 0.05)")
     p.add_argument("--at", metavar="FREQ", help="frequency for the --dominant error (default as solve)")
+    p.add_argument("--expand-bias", action="store_true",
+                   help="write bias-form devices' gm, rpi, ro in terms of ic, beta, va and V_T")
     p.add_argument("--latex", action="store_true", help="print LaTeX (\\parallel for ||)")
     p.add_argument("--json", action="store_true", help="print JSON")
 
@@ -86,7 +88,7 @@ def run(args) -> int:
     numeric = _names(args.numeric)
     tol = tolerance(args.dominant) if args.dominant is not None else None
     f = frequency(args.at) if args.at is not None else default_frequency(c)
-    results = derive(c, qs, keep, numeric, limits, tol, f)
+    results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias)
     if args.json:
         items = []
         for d in results:

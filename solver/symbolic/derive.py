@@ -38,8 +38,37 @@ def tidy_numbers(e, digits: int = 6):
     return e.xreplace(big) if big else e
 
 
+def bias_substitutions(c: Circuit) -> dict:
+    """{small-signal symbol: expression in bias quantities} for bias-form devices.
+
+    BJT given ic=: gm = ic/V_T, rpi = beta*V_T/ic, ro = va/ic (when va= is given);
+    MOSFET given id=, vov=: gm = 2*id/vov, ro = 1/(lambda*id) (when lambda= is given).
+    (Sedra & Smith, *Microelectronic Circuits*, 7th ed., sections 7.2.1-7.2.4, from memory.)
+    The thermal voltage is the one symbol ``V_T``.
+    """
+    from .engine import symbol
+    out = {}
+    vt = symbol("V_T")
+    for d in c.devices:
+        p, n = d.params, d.name
+        sym = lambda q: symbol(f"{n}.{q}")  # noqa: E731
+        if d.is_bjt and "ic" in p:
+            ic = sym("ic")
+            out[sym("gm")] = ic / vt
+            if "beta" in p or "rpi" not in p:
+                out[sym("rpi")] = sym("beta") * vt / ic
+            if "va" in p:
+                out[sym("ro")] = sym("va") / ic
+        elif d.is_mos and "id" in p and "vov" in p:
+            i_d = sym("id")
+            out[sym("gm")] = 2 * i_d / sym("vov")
+            if "lambda" in p:
+                out[sym("ro")] = 1 / (sym("lambda") * i_d)
+    return out
+
+
 def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: float | None = None,
-           frequency_hz: float = 0.0) -> list[Derived]:
+           frequency_hz: float = 0.0, expand_bias: bool = False) -> list[Derived]:
     """Derive ``quantities`` symbolically and format them.
 
     Parameters
@@ -52,6 +81,8 @@ def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: f
         Relative tolerance for dropping terms (0.05 for 5 %).
     frequency_hz : float
         Where the dominant-term error is reported.
+    expand_bias : bool
+        Rewrite bias-form devices' symbols in ic, beta, va, V_T (see :func:`bias_substitutions`).
 
     Examples
     --------
@@ -82,6 +113,8 @@ def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: f
         e = sympy.factor_terms(e) if e.is_Add else e
         shown = P.recognize_parallel(e, dims) if not e.has(sympy.oo, sympy.zoo, sympy.nan) else e
         shown = tidy_numbers(shown)
+        if expand_bias:
+            shown = shown.xreplace(bias_substitutions(c))
         out.append(Derived(q, shown, P.plain(shown), P.latex(shown), P.sympy_text(shown),
                            P.sympy_names(P.expand_par(shown) if shown.has(P.Par()) else shown), pruned))
     return out

@@ -290,7 +290,8 @@ def _printers():
 
 _BASE_TEX = {"gm": r"g_{m", "gmb": r"g_{mb", "rpi": r"r_{\pi", "ro": r"r_{o", "rx": r"r_{x", "re": r"r_{e",
              "cpi": r"C_{\pi", "cmu": r"C_{\mu", "cgs": r"C_{gs", "cgd": r"C_{gd", "rd": r"r_{d",
-             "cj": r"C_{j", "rs": r"R_{s", "alpha": r"\alpha", "beta": r"\beta", "gain": r"A"}
+             "cj": r"C_{j", "rs": r"R_{s", "alpha": r"\alpha", "beta": r"\beta", "gain": r"A",
+             "ic": r"I_{C", "va": r"V_{A", "vt": r"V_{T", "id": r"I_{D", "vov": r"V_{ov", "lambda": r"\lambda"}
 
 
 def latex_name(name: str) -> str:
@@ -305,6 +306,8 @@ def latex_name(name: str) -> str:
     """
     if name == S_NAME:
         return "s"
+    if name == "V_T":
+        return "V_{T}"
     *owner, base = name.split(".")
     esc = lambda t: t.replace("_", r"\_")  # noqa: E731
     own = r"\mathrm{" + esc(".".join(owner)) + "}" if owner else ""
