@@ -309,6 +309,7 @@ class _Elaborator:
         self.circuit.ground = self.ground
         self.element_entries: list[Entry] = []
         self.n_elements = 0
+        self._pending = []  # (block body, instance scope), filled while declaring, built after the top
 
     # structure -----------------------------------------------------------------
     def _split_blocks(self) -> list:
@@ -413,7 +414,6 @@ class _Elaborator:
     _pending: list
 
     def _build(self, stmts, scope: Scope):
-        self._pending = []
         self._build_scope(stmts, scope, top=True)
         i = 0
         while i < len(self._pending):

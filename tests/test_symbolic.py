@@ -371,3 +371,17 @@ def test_parallel_with_a_series_branch_round_trips():
     assert d.plain == "R1 || (R2 + R3)"
     R1, R2, R3 = S("R1"), S("R2"), S("R3")
     assert same(to_sympy(parse_expression(d.plain), c), R1 * (R2 + R3) / (R1 + R2 + R3))
+
+
+def test_block_instances_give_prefixed_symbols():
+    # two cascaded CE stages: Avo = gm1*(ro1 || RC1 || rpi2) * gm2*(ro2 || RC2)
+    # (Sedra & Smith 7th ed., section 7.3.3 applied per stage, from memory)
+    from solver.symbolic.derive import derive
+    c = solver.loads("block stage (i, o) rc=5k\n  npn Q (o, i, gnd) gm=40m, rpi=2k5, ro=100k\n"
+                     "  resistor RC (o, gnd) rc\nend\nsignal VS (a, gnd) 1 mV\nuse stage S1 (a, b)\n"
+                     "use stage S2 (b, c) rc=10k\noutput (c, gnd)\n")
+    q = symbolic_port_quantities(c, which=["Avo"])["Avo"].expr()
+    g1, g2, o1, o2, r1, r2, p2 = (S(n) for n in ("S1.Q.gm", "S2.Q.gm", "S1.Q.ro", "S2.Q.ro", "S1.RC", "S2.RC",
+                                                 "S2.Q.rpi"))
+    assert same(q, g1 * par(o1, r1, p2) * g2 * par(o2, r2))
+    assert derive(c, ["Avo"])[0].plain == "S1.Q.gm*S2.Q.gm*(S1.Q.ro || S1.RC || S2.Q.rpi)*(S2.Q.ro || S2.RC)"
