@@ -384,4 +384,5 @@ def test_block_instances_give_prefixed_symbols():
     g1, g2, o1, o2, r1, r2, p2 = (S(n) for n in ("S1.Q.gm", "S2.Q.gm", "S1.Q.ro", "S2.Q.ro", "S1.RC", "S2.RC",
                                                  "S2.Q.rpi"))
     assert same(q, g1 * par(o1, r1, p2) * g2 * par(o2, r2))
-    assert derive(c, ["Avo"])[0].plain == "S1.Q.gm*S2.Q.gm*(S1.Q.ro || S1.RC || S2.Q.rpi)*(S2.Q.ro || S2.RC)"
+    text = derive(c, ["Avo"])[0].plain
+    assert "(S1.Q.ro || S1.RC || S2.Q.rpi)" in text and "(S2.Q.ro || S2.RC)" in text
