@@ -125,6 +125,7 @@ def test_check_exit_codes_and_json(cli, netlist):
                           "exact_when"}
     assert first["line"] == 6 and first["kind"] == "exact" and first["holds"] is False
     assert first["exact_when"] == ["Q1.ro -> oo"]
+    assert first["exact_expression"] == "-Q1.gm*(Q1.ro || RC || RL)"
     assert second["kind"] == "approx" and second["tolerance"] == pytest.approx(0.1)
     ro, rc = 100e3, 5e3
     assert second["value"]["re"] == pytest.approx(ro * rc / (ro + rc))

@@ -46,6 +46,8 @@ def table(verdicts) -> str:
             when = [w.replace(" -> oo", " → ∞").replace(" -> 0", " → 0") for w in v.exact_when]
             notes.append(f"  line {v.line}: " + (f"exact when {'; or '.join(when)}" if when
                                                  else "no single limit or pair of limits makes it exact"))
+            if v.exact_expression:
+                notes.append(f"    exact {v.quantity} = {v.exact_expression}")
     widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
     lines = ["  ".join(c.ljust(w) if i != 0 else c.rjust(w) for i, (c, w) in enumerate(zip(r, widths))).rstrip()
              for r in rows]

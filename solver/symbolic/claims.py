@@ -376,6 +376,7 @@ class Verdict:
     rel_error: float
     tolerance: float | None
     exact_when: list[str] = field(default_factory=list)
+    exact_expression: str = ""  # the exact quantity in plain text ("" when too long to show)
 
     def to_json(self) -> dict:
         def z(v):
@@ -384,7 +385,8 @@ class Verdict:
         return {"line": self.line, "quantity": self.quantity, "kind": self.kind, "claim": self.text,
                 "holds": self.holds, "exact": self.exact, "value": z(self.value), "claimed": z(self.claimed),
                 "rel_error": self.rel_error if math.isfinite(self.rel_error) else "inf",
-                "tolerance": self.tolerance, "exact_when": self.exact_when}
+                "tolerance": self.tolerance, "exact_when": self.exact_when,
+                "exact_expression": self.exact_expression}
 
 
 def numeric(expr, values: dict, s: complex) -> complex:
@@ -419,6 +421,9 @@ def check_claims(c: Circuit, frequency_hz: float) -> list[Verdict]:
                 f"this circuit's signal kind gives {'Zt/Zto' if c.signal.kind == 'A' else 'Gv/Gvo'} instead"
             raise error(cl.loc, f"claim on {cl.quantity}: {why}")
     sym = symbolic_port_quantities(c, which=wanted)
+    from .ports import scenario_elements
+    from .printing import symbol_dims
+    dims = symbol_dims(scenario_elements(c))
     out = []
     for cl in c.claims:
         claimed = to_sympy(cl.expr, c)
@@ -435,8 +440,18 @@ def check_claims(c: Circuit, frequency_hz: float) -> list[Verdict]:
         holds = is_exact if cl.kind == "exact" else rel <= cl.tolerance
         when = [] if is_exact else exact_when(exact_expr, claimed)
         out.append(Verdict(cl.line, cl.quantity, cl.kind, claim_text(c, cl), holds, is_exact, value, cv, rel,
-                           cl.tolerance, when))
+                           cl.tolerance, when, _shown(exact_expr, dims)))
     return out
+
+
+MAX_SHOWN = 200
+
+
+def _shown(expr, dims) -> str:
+    """The exact quantity as plain text with ||, or "" when longer than MAX_SHOWN characters."""
+    from .printing import plain, recognize_parallel
+    text = plain(recognize_parallel(expr, dims))
+    return text if len(text) <= MAX_SHOWN else ""
 
 
 def claim_text(c: Circuit, cl) -> str:
