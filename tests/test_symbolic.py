@@ -386,3 +386,15 @@ def test_block_instances_give_prefixed_symbols():
     assert same(q, g1 * par(o1, r1, p2) * g2 * par(o2, r2))
     text = derive(c, ["Avo"])[0].plain
     assert "(S1.Q.ro || S1.RC || S2.Q.rpi)" in text and "(S2.Q.ro || S2.RC)" in text
+
+
+def test_follower_output_resistance_prints_as_textbook():
+    # Sedra & Smith 7th ed., section 7.3.6: Rout = RE || (rpi + rs)/(beta + 1) (from memory)
+    from solver.parse import parse_expression
+    from solver.symbolic.claims import to_sympy
+    from solver.symbolic.derive import derive
+    c = solver.loads("signal VS (b, gnd) 1 mV, rs=1k\nnpn Q1 (gnd, b, e) gm=40m, rpi=2k5\n"
+                     "resistor RE (e, gnd) 2k\nload RL (e, gnd) 1k\n")
+    (d,) = derive(c, ["Rout"])
+    assert d.plain == "RE || (Q1.rpi + VS.rs)/(Q1.gm*Q1.rpi + 1)"
+    assert same(to_sympy(parse_expression(d.plain), c), par(RE, (rpi + rs) / (gm * rpi + 1)))

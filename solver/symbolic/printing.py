@@ -159,19 +159,34 @@ def _is_impedance_sum(A, dims) -> bool:
     return True
 
 
-def _try_sum_branch(D, num_factors, n0: dict, dims):
-    """D = A + M with A a sum of impedances among the numerator factors and M a monomial
-    impedance dividing the numerator: then A*M/D = A || M. Returns (A, {symbol: exponent})."""
+def _dimensionless_poly(k, dims) -> bool:
     import sympy
+    for term in sympy.Add.make_args(sympy.expand(k)):
+        m = _monomial(term)
+        if m is None or _dim(m[1], dims) != (0, 0):
+            return False
+    return True
+
+
+def _try_sum_branch(D, num_factors, n0: dict, dims):
+    """D = k*M + A with A a sum of impedances among the numerator factors, M a monomial impedance
+    dividing the numerator and k a dimensionless polynomial: then A*M/D = M || A/k.
+    Returns (the factor A, the branch A/k, {symbol: exponent} of M)."""
+    import sympy
+    cands = [{s: 1} for s, e in n0.items() if e > 0 and dims.get(s.name) == OHM]
     for A in num_factors:
         if not isinstance(A, sympy.Add) or not _is_impedance_sum(A, dims):
             continue
         rem = sympy.expand(D - A)
-        m = _monomial(rem) if rem != 0 else None
-        if m is None or m[0] != 1 or _dim(m[1], dims) != OHM:
+        if rem == 0:
             continue
-        if all(n0.get(s, 0) >= e for s, e in m[1].items()) and all(e > 0 for e in m[1].values()):
-            return A, m[1]
+        for M in cands:
+            k = sympy.cancel(rem / _mono_expr(M))
+            if sympy.denom(k) != 1 or not _dimensionless_poly(k, dims):
+                continue
+            if sympy.Add.make_args(sympy.expand(k))[0].could_extract_minus_sign():
+                continue
+            return A, (A if k == 1 else A / k), M
     return None
 
 
@@ -219,11 +234,11 @@ def recognize_parallel(expr, dims: dict):
         if isinstance(D, sympy.Add):
             hit = _try_sum_branch(D, rest_num, n0, dims)
             if hit is not None:
-                A, M = hit
+                A, branch, M = hit
                 rest_num.remove(A)
                 for s, e in M.items():
                     n0[s] -= e
-                pars.append(Par()(*sorted([A, _mono_expr(M)], key=sympy.default_sort_key)))
+                pars.append(Par()(*sorted([branch, _mono_expr(M)], key=sympy.default_sort_key)))
                 continue
             hit = _try_factor(D, {s: e for s, e in n0.items() if e > 0}, dims)
             if hit is not None:
