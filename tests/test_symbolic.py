@@ -398,3 +398,19 @@ def test_follower_output_resistance_prints_as_textbook():
     (d,) = derive(c, ["Rout"])
     assert d.plain == "RE || (Q1.rpi + VS.rs)/(Q1.gm*Q1.rpi + 1)"
     assert same(to_sympy(parse_expression(d.plain), c), par(RE, (rpi + rs) / (gm * rpi + 1)))
+
+
+def test_divider_form_and_every_quantity_round_trips():
+    # Gv = -gm*(rpi || RB)*(ro || RC || RF)/(rs + rpi || RB): the input divider times the CE gain
+    # (Sedra & Smith 7th ed., section 7.3.3, from memory); every printed quantity parses back
+    # with our own parser into the same rational function
+    from conftest import CIRCUITS
+    from solver.parse import parse_expression
+    from solver.symbolic.claims import to_sympy
+    from solver.symbolic.derive import derive
+    c = solver.load(CIRCUITS / "hydrophone_preamp.pw")
+    exact = symbolic_port_quantities(c)
+    shown = {d.quantity: d.plain for d in derive(c, list(exact))}
+    assert shown["Gv"] == "-Q1.gm*(Q1.rpi || RB)*(Q1.ro || RC || RF)/(VH.rs + Q1.rpi || RB)"
+    for name, text in shown.items():
+        assert same(to_sympy(parse_expression(text), c), exact[name].expr()), name

@@ -190,6 +190,35 @@ def _try_sum_branch(D, num_factors, n0: dict, dims):
     return None
 
 
+def _try_divider(D, n0: dict, dims):
+    """D = M + x*S with M a monomial dividing the numerator, x an impedance symbol and M/S a
+    parallel of impedances: then M/D = P/(P + x), P = M/S (a voltage divider onto a parallel).
+    Returns (M as {symbol: exponent}, P, x)."""
+    import sympy
+    for x in sorted(D.free_symbols, key=sympy.default_sort_key):
+        if dims.get(x.name) != OHM:
+            continue
+        P_ = sympy.Poly(sympy.expand(D), x)
+        if P_.degree() != 1:
+            continue
+        S, M = P_.all_coeffs()
+        m = _monomial(M)
+        if m is None or m[0] != 1 or not all(n0.get(s, 0) >= e for s, e in m[1].items()):
+            continue
+        terms = sympy.Add.make_args(sympy.expand(S))
+        if len(terms) < 2:
+            continue
+        xs = []
+        for term in terms:
+            b = _monomial(sympy.cancel(M / term))
+            if b is None or b[0] != 1 or _dim(b[1], dims) != OHM or len(b[1]) > MAX_BRANCH_SYMBOLS:
+                break
+            xs.append(_mono_expr(b[1]))
+        else:
+            return m[1], Par()(*sorted(xs, key=sympy.default_sort_key)), x
+    return None
+
+
 def recognize_parallel(expr, dims: dict):
     """Rewrite parallel combinations of impedances as ``||`` nodes (see :func:`expand_par`).
 
@@ -247,6 +276,14 @@ def recognize_parallel(expr, dims: dict):
                     n0[s] -= e
                 pars.append(Par()(*sorted(xs, key=sympy.default_sort_key)))
                 rest_den.append(k)
+                continue
+        if isinstance(D, sympy.Add):
+            hit = _try_divider(D, n0, dims)
+            if hit is not None:
+                M, P, x = hit
+                for s, e in M.items():
+                    n0[s] -= e
+                pars.append(P / (P + x))
                 continue
         rest_den.append(D)
     if not pars:
