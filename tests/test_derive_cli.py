@@ -103,3 +103,12 @@ def test_solve_leaves_out_symbolic_forms_for_large_circuits(cli, netlist):
     r = cli("solve", netlist(cascade(3)))
     assert r.returncode == 0, r.stderr
     assert "\n        = " not in r.stdout
+
+
+def test_solve_symbolic_time_guard():
+    # with no time at all the guard gives up and the numeric report stands alone
+    import solver
+    from solver.symbolic.quick import quick_symbolic
+    c = solver.loads(CE)
+    assert quick_symbolic(c, seconds=1e-6) == {}
+    assert quick_symbolic(c)["Av"] == "-Q1.gm*(Q1.ro || RC || RL)"

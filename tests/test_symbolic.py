@@ -361,7 +361,7 @@ def test_pure_python_backend_gives_the_same_quantities(monkeypatch):
 
 def test_parallel_with_a_series_branch_round_trips():
     # R1 || (R2 + R3): the resistance seen into a divider (series/parallel reduction, any
-    # circuits text, e.g. Sedra & Smith 7th ed., section 1.x, from memory)
+    # circuits text, e.g. Sedra & Smith 7th ed., chapter 1, from memory)
     from solver.parse import parse_expression
     from solver.symbolic.claims import to_sympy
     from solver.symbolic.derive import derive

@@ -10,7 +10,7 @@
   replaced by ``_``.
 
 The parallel operator follows the textbook definition x || y = x*y/(x + y)
-(A. S. Sedra, K. C. Smith, *Microelectronic Circuits*, 7th ed., section 1.x
+(A. S. Sedra, K. C. Smith, *Microelectronic Circuits*, 7th ed., chapter 1
 notation, from memory).
 """
 from __future__ import annotations

@@ -1,8 +1,9 @@
 """The symbolic lines of ``portwise solve``: only for circuits small enough to be quick.
 
 Guards (common practice, no source): at most MAX_UNKNOWNS MNA unknowns and
-MAX_SYMBOLS symbols, and a printed form of at most MAX_CHARS characters per
-quantity; anything larger is left to ``portwise derive`` with ``--keep``.
+MAX_SYMBOLS symbols, a printed form of at most MAX_CHARS characters per
+quantity, and MAX_SECONDS of wall time (a timer interrupt, where the platform
+has one); anything larger is left to ``portwise derive`` with ``--keep``.
 """
 from __future__ import annotations
 
@@ -11,10 +12,36 @@ from ..model import Circuit
 MAX_UNKNOWNS = 8
 MAX_SYMBOLS = 10
 MAX_CHARS = 120
+MAX_SECONDS = 1.5
 
 
-def quick_symbolic(c: Circuit) -> dict[str, str]:
+class _OutOfTime(Exception):
+    pass
+
+
+def _alarm(signum, frame):
+    raise _OutOfTime()
+
+
+def quick_symbolic(c: Circuit, seconds: float = MAX_SECONDS) -> dict[str, str]:
     """{quantity: plain text} for a small circuit, {} otherwise (or on any symbolic failure)."""
+    import signal
+    import threading
+    timed = hasattr(signal, "setitimer") and threading.current_thread() is threading.main_thread()
+    if not timed:
+        return _quick(c)
+    old = signal.signal(signal.SIGALRM, _alarm)
+    signal.setitimer(signal.ITIMER_REAL, seconds)
+    try:
+        return _quick(c)
+    except _OutOfTime:
+        return {}
+    finally:
+        signal.setitimer(signal.ITIMER_REAL, 0)
+        signal.signal(signal.SIGALRM, old)
+
+
+def _quick(c: Circuit) -> dict[str, str]:
     from ..mna import Stamper
     from .ports import circuit_symbols, scenario_elements
     try:
