@@ -15,7 +15,7 @@ MAX_CHARS = 120
 MAX_SECONDS = 1.5
 
 
-class _OutOfTime(Exception):
+class _OutOfTime(BaseException):  # not an Exception: nothing on the way may swallow it
     pass
 
 
@@ -31,8 +31,8 @@ def quick_symbolic(c: Circuit, seconds: float = MAX_SECONDS) -> dict[str, str]:
     if not timed:
         return _quick(c)
     old = signal.signal(signal.SIGALRM, _alarm)
-    signal.setitimer(signal.ITIMER_REAL, seconds)
     try:
+        signal.setitimer(signal.ITIMER_REAL, seconds)
         return _quick(c)
     except _OutOfTime:
         return {}
