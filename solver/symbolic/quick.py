@@ -32,12 +32,14 @@ def quick_symbolic(c: Circuit, seconds: float = MAX_SECONDS) -> dict[str, str]:
         return _quick(c)
     old = signal.signal(signal.SIGALRM, _alarm)
     try:
-        signal.setitimer(signal.ITIMER_REAL, seconds)
-        return _quick(c)
-    except _OutOfTime:
+        try:
+            signal.setitimer(signal.ITIMER_REAL, seconds)
+            return _quick(c)
+        finally:
+            signal.setitimer(signal.ITIMER_REAL, 0)
+    except _OutOfTime:  # also when the (one-shot) timer fires during the clean-up above
         return {}
     finally:
-        signal.setitimer(signal.ITIMER_REAL, 0)
         signal.signal(signal.SIGALRM, old)
 
 
