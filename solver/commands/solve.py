@@ -45,5 +45,6 @@ def run(args) -> int:
         if result.bias is not None:
             from ..biasreport import bias_lines
             result.notes[:0] = [""] + bias_lines(c, result.bias) + ([""] if result.notes else [])
-        print(solve_report(result))
+        from ..symbolic.quick import quick_symbolic
+        print(solve_report(result, symbolic=quick_symbolic(c)))
     return 0

@@ -1,0 +1,156 @@
+"""Claims: verdicts, exact_when, exit codes and JSON of ``portwise check``.
+
+Reference formulas are textbook small-signal results (A. S. Sedra, K. C. Smith,
+*Microelectronic Circuits*, 7th ed., sections 7.3.3-7.3.4, from memory); the
+quantity's value comes from the numeric engine, so each verdict is checked
+against numbers computed here independently of the claim machinery.
+"""
+from __future__ import annotations
+
+import json
+import math
+
+import pytest
+
+import solver
+from solver.symbolic.claims import check_claims, exact_when, identical, to_sympy
+from solver.symbolic.engine import symbol as S
+
+CE = """\
+title "claims test: CE stage"
+signal VS (b, gnd) 1 mV, rs=1k
+npn Q1 (c, b, gnd) gm=40m, rpi=2k5, ro=100k
+resistor RC (c, gnd) 5k
+load RL (c, gnd) 10k
+"""
+
+
+def verdicts(text):
+    c = solver.loads(text)
+    return c, check_claims(c, 0.0)
+
+
+def test_exact_claim_holds_identically():
+    # Sedra & Smith 7th ed., section 7.3.3: Av = -gm*(ro || RC || RL) (from memory)
+    _, (v,) = verdicts(CE + "claim Av = -Q1.gm*(Q1.ro || RC || RL)\n")
+    assert v.holds and v.exact and v.kind == "exact"
+    assert v.rel_error < 1e-12
+    assert v.exact_when == []
+
+
+def test_exact_claim_refuted_with_the_limit_that_fixes_it():
+    # dropping ro is the textbook simplification: exact only when ro -> oo
+    _, (v,) = verdicts(CE + "claim Av = -Q1.gm*(RC || RL)\n")
+    assert not v.holds and not v.exact
+    assert v.exact_when == ["Q1.ro -> oo"]
+    # the reported error is the real one: -gm*(RC||RL) against -gm*(ro||RC||RL)
+    gm, ro, rc, rl = 40e-3, 100e3, 5e3, 10e3
+    exact = -gm / (1 / ro + 1 / rc + 1 / rl)
+    claimed = -gm / (1 / rc + 1 / rl)
+    assert v.rel_error == pytest.approx(abs(claimed - exact) / abs(exact), rel=1e-9)
+
+
+def test_pair_of_limits():
+    # -gm*RC needs both ro -> oo and RL -> oo (an unloaded, ideal-output CE)
+    _, (v,) = verdicts(CE + "claim Av = -Q1.gm*RC\n")
+    assert v.exact_when == ["Q1.ro -> oo and RL -> oo"]
+
+
+def test_approximate_claim_tolerance_both_ways():
+    gm, ro, rc, rl = 40e-3, 100e3, 5e3, 10e3
+    err = abs(-gm * rc * rl / (rc + rl) / (-gm / (1 / ro + 1 / rc + 1 / rl)) - 1)  # about 3.3 %
+    _, (ok, bad) = verdicts(CE + "claim Av ~ -Q1.gm*(RC || RL) within 5%\n"
+                                 "claim Av ~ -Q1.gm*(RC || RL) within 2%\n")
+    assert ok.holds and not bad.holds
+    assert ok.rel_error == pytest.approx(err, rel=1e-9)
+    assert ok.tolerance == pytest.approx(0.05) and bad.tolerance == pytest.approx(0.02)
+
+
+def test_let_names_expand_and_device_quantities_derive():
+    # rpi = (beta + 1)*re with beta = gm*rpi, re = alpha/gm (Sedra & Smith 7th ed., 7.2.4, from memory)
+    _, (a, b) = verdicts(CE + "let RP = RC || RL\nclaim Av = -Q1.gm*(Q1.ro || RP)\n"
+                              "claim Rin = (Q1.beta + 1)*Q1.re\n")
+    assert a.holds and a.exact
+    assert b.holds and b.exact
+
+
+def test_t_model_symbols():
+    # common base, T model: Rin = re exactly (Sedra & Smith 7th ed., 7.3.5, from memory)
+    _, (v,) = verdicts("signal VS (e, gnd) 1 mV\nnpn Q1 (c, gnd, e) gm=40m, rpi=2k5, model=t\n"
+                       "resistor RC (c, gnd) 5k\noutput (c, gnd)\nclaim Rin = Q1.re\n")
+    assert v.holds and v.exact
+
+
+def test_degeneration_formula_exact_when_gm_large():
+    # Av -> -RC/RE as gm -> oo (the "gain set by resistor ratio" rule), Sedra & Smith 7.3.4
+    _, (v,) = verdicts("signal VS (b, gnd) 1 mV\nnpn Q1 (c, b, e) gm=40m, rpi=2k5\nresistor RE (e, gnd) 220\n"
+                       "resistor RC (c, gnd) 4k7\noutput (c, gnd)\nclaim Avo ~ -RC/RE within 15%\n")
+    assert "Q1.gm -> oo" in v.exact_when
+    # exact: Avo = -beta*RC/(rpi + (beta + 1)*RE), beta = gm*rpi = 100
+    exact = -100 * 4.7e3 / (2.5e3 + 101 * 220)
+    assert v.value.real == pytest.approx(exact, rel=1e-12)
+    assert v.rel_error == pytest.approx(abs(-4.7e3 / 220 - exact) / abs(exact), rel=1e-9)  # about 12 %
+    assert v.holds and not v.exact
+
+
+def test_identical_and_exact_when_primitives():
+    import sympy
+    a, b = S("RA"), S("RB")
+    assert identical(a * b / (a + b), 1 / (1 / a + 1 / b))
+    assert not identical(a * b / (a + b), a)
+    assert exact_when(a * b / (a + b), a) == ["RB -> oo"]
+    assert identical(sympy.sqrt(a) * sympy.sqrt(a), a)
+
+
+def test_ideal_opamp_gain_is_bad_input():
+    from solver.diagnostics import InputError
+    c = solver.loads("signal VS (in, gnd) 1 mV\nresistor R1 (in, m) 10k\nresistor R2 (m, out) 47k\n"
+                     "opamp U1 (out, gnd, m)\noutput (out, gnd)\nclaim Avo = -R2/R1*U1.gain\n")
+    with pytest.raises(InputError, match="ideal op-amp"):
+        to_sympy(c.claims[0].expr, c)
+
+
+# --- command line ----------------------------------------------------------------------
+def test_check_exit_codes_and_json(cli, netlist):
+    good = netlist(CE + "claim Av = -Q1.gm*(Q1.ro || RC || RL)\n", "good.pw")
+    r = cli("check", good)
+    assert r.returncode == 0, r.stderr
+    assert "holds" in r.stdout
+    bad = netlist(CE + "claim Av = -Q1.gm*(RC || RL)\nclaim Rout ~ RC within 10%\n", "bad.pw")
+    r = cli("check", bad, "--json")
+    assert r.returncode == 1, r.stderr
+    data = json.loads(r.stdout)
+    first, second = data["claims"]
+    assert set(first) >= {"line", "quantity", "kind", "holds", "value", "claimed", "rel_error", "tolerance",
+                          "exact_when"}
+    assert first["line"] == 6 and first["kind"] == "exact" and first["holds"] is False
+    assert first["exact_when"] == ["Q1.ro -> oo"]
+    assert first["exact_expression"] == "-Q1.gm*(Q1.ro || RC || RL)"
+    assert second["kind"] == "approx" and second["tolerance"] == pytest.approx(0.1)
+    ro, rc = 100e3, 5e3
+    assert second["value"]["re"] == pytest.approx(ro * rc / (ro + rc))
+    assert second["holds"] is True
+    r = cli("check", bad)
+    assert r.returncode == 1
+    assert "exact when Q1.ro → ∞" in r.stdout
+
+
+def test_unknown_symbol_in_claim_is_bad_input_with_line(cli, netlist):
+    p = netlist(CE + "claim Av = -Q1.gm*(RC || RX)\n")
+    r = cli("check", p)
+    assert r.returncode == 2
+    assert f"{p}:6:" in r.stderr and "RX" in r.stderr
+    assert "Traceback" not in r.stderr
+
+
+def test_no_claims_is_bad_input(cli, netlist):
+    r = cli("check", netlist(CE))
+    assert r.returncode == 2 and "no claim" in r.stderr
+
+
+def test_example_circuit_claims(cli):
+    from conftest import CIRCUITS
+    r = cli("check", CIRCUITS / "hydrophone_preamp.pw", "--json")
+    data = json.loads(r.stdout)
+    assert r.returncode == (0 if all(c["holds"] for c in data["claims"]) else 1)
+    assert len(data["claims"]) >= 3
