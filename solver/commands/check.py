@@ -64,6 +64,8 @@ def run(args) -> int:
     from ..symbolic.claims import check_claims
     from .common import emit_json, frequency, print_warnings
     c = api.load(args.file)
+    from ..bias import ensure_bias
+    ensure_bias(c)  # devices given by DC parameters: bias first (refuses a device outside its region)
     print_warnings(c)
     if not c.claims:
         raise error(None, f"'{args.file}' has no claim lines (write e.g. 'claim Av ~ -RC/RE within 10%')")

@@ -68,6 +68,8 @@ def run(args) -> int:
     from ..symbolic.ports import circuit_symbols
     from .common import emit_json, frequency, print_warnings
     c = api.load(args.file)
+    from ..bias import ensure_bias
+    ensure_bias(c)  # devices given by DC parameters: bias first (refuses a device outside its region)
     print_warnings(c)
     current = c.signal.kind == "A"
     every = ["Rin", "Rout", "Avo", "Av", "Zt" if current else "Gv", "Zto" if current else "Gvo"]
