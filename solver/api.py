@@ -86,12 +86,7 @@ class Result:
         return out
 
 
-def _num(x: float):
-    if math.isinf(x):
-        return "inf" if x > 0 else "-inf"
-    if math.isnan(x):
-        return "nan"
-    return float(x)
+from .jsonout import number as _num  # noqa: E402  (one JSON rule for every command)
 
 
 DEVICE_COLUMNS = {"bjt": ("gm", "rpi", "ro", "re", "beta"), "mos": ("gm", "ro", "gmb")}

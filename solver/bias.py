@@ -663,10 +663,4 @@ def to_json(res: BiasResult, c: Circuit) -> dict:
             "iterations": res.iterations}
 
 
-def _num(x: float):
-    """A JSON-safe number: infinities and NaN as strings, as the solve JSON writes them."""
-    if math.isinf(x):
-        return "inf" if x > 0 else "-inf"
-    if math.isnan(x):
-        return "nan"
-    return float(x)
+from .jsonout import number as _num  # noqa: E402  (as the solve JSON writes them)

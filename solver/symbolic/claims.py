@@ -379,9 +379,10 @@ class Verdict:
     exact_expression: str = ""  # the exact quantity in plain text ("" when too long to show)
 
     def to_json(self) -> dict:
+        from ..jsonout import number
+
         def z(v):
-            f = lambda x: ("inf" if x > 0 else "-inf") if math.isinf(x) else ("nan" if math.isnan(x) else x)  # noqa: E731
-            return {"re": f(v.real), "im": f(v.imag)}
+            return {"re": number(v.real), "im": number(v.imag)}
         return {"line": self.line, "quantity": self.quantity, "kind": self.kind, "claim": self.text,
                 "holds": self.holds, "exact": self.exact, "value": z(self.value), "claimed": z(self.claimed),
                 "rel_error": self.rel_error if math.isfinite(self.rel_error) else "inf",

@@ -51,7 +51,7 @@ def _par_class():
         is_commutative = True
 
         @classmethod
-        def eval(cls, *args):
+        def eval(cls, *args):  # trusted: sympy's Function hook (defines, does not call eval)
             return None
 
         def formula(self):
