@@ -404,7 +404,17 @@ def flat_top(sc: Scenario, freqs: np.ndarray, h: np.ndarray) -> tuple[float, com
             return 0.0, h0
         return float(freqs[0]), complex(h[0])
     if k == len(freqs) - 1:
-        return float(freqs[k]), complex(h[k])
+        # flat up to the top of the sweep (a high-pass shape): take the lowest point from which the
+        # magnitude stays within 0.1 % of the top value, not the far end, where a real amplifier
+        # is no longer described and the matrix grows ill-conditioned
+        mag = np.abs(h)
+        flat = np.isfinite(mag) & (np.abs(mag / mag[k] - 1) < 1e-3)
+        j = k
+        while j > 0 and flat[j - 1]:
+            j -= 1
+        j = min(k, j + 10)  # one decade (at 10 points per decade) into the flat part
+        # the level stays the top value: the -3 dB edges are measured from the flat asymptote
+        return float(freqs[j]), complex(h[k])
     # an interior flat top is a maximum of |H| (zero slope): refine it between the neighbours
     # (a resonant peak falls between sweep points)
     from scipy.optimize import minimize_scalar

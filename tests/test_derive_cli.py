@@ -69,10 +69,12 @@ def test_derive_dominant_reports_error(cli, netlist):
 
 
 def test_solve_shows_symbolic_forms_for_small_circuits(cli, netlist):
-    r = cli("solve", netlist(CE))
+    r = cli("solve", netlist(CE), "--symbolic")
     assert r.returncode == 0, r.stderr
     assert "= -Q1.gm*(Q1.ro || RC || RL)" in r.stdout
     assert "= Q1.ro || RC" in r.stdout
+    # without --symbolic the report stays numeric (and sympy is not loaded)
+    assert "= -Q1.gm" not in cli("solve", netlist(CE)).stdout
 
 
 def test_expand_bias_matches_the_numeric_engine(cli):

@@ -11,7 +11,8 @@ signal) and Ai = i_load/i_in."""
 EPILOG = """\
 example:
   portwise solve circuits/mic_preamp.pw --at 10kHz
-  portwise solve circuits/mic_preamp.pw --json"""
+  portwise solve circuits/mic_preamp.pw --json
+  portwise solve circuits/mic_preamp.pw --symbolic"""
 
 
 def add_arguments(p) -> None:
@@ -21,6 +22,9 @@ def add_arguments(p) -> None:
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
     p.add_argument("--force", action="store_true", help="compute port quantities even when a bias-solved "
                    "transistor is outside its amplifying region (the output warns)")
+    p.add_argument("--symbolic", action="store_true", help="also show each port quantity as a formula in the "
+                   "circuit's symbols when the circuit is small enough to do so quickly (loads sympy: "
+                   "about half a second more; 'portwise derive' does any size)")
 
 
 def run(args) -> int:
@@ -45,6 +49,9 @@ def run(args) -> int:
         if result.bias is not None:
             from ..biasreport import bias_lines
             result.notes[:0] = [""] + bias_lines(c, result.bias) + ([""] if result.notes else [])
-        from ..symbolic.quick import quick_symbolic
-        print(solve_report(result, symbolic=quick_symbolic(c)))
+        symbolic = None
+        if args.symbolic:
+            from ..symbolic.quick import quick_symbolic
+            symbolic = quick_symbolic(c)
+        print(solve_report(result, symbolic=symbolic))
     return 0
