@@ -52,7 +52,7 @@ def read_source(path: str | Path) -> str:
 
 def loads(text: str, file: str = "<string>") -> Circuit:
     """Parse and elaborate netlist text into a :class:`~solver.model.Circuit`."""
-    with paused_gc():  # issue 6: bulk building; see solver.bulk
+    with paused_gc():  # bulk building; see solver.bulk
         return elaborate(parse(text, file))
 
 
@@ -81,7 +81,7 @@ class Result:
                                "unit": UNITS[k]} for k, v in self.quantities.items()},
             "devices": {name: {k: _num(v) for k, v in p.items()} for name, p in self.devices.items()},
         }
-        if self.notes:  # e.g. "evaluated at the detected midband frequency" (issue 5)
+        if self.notes:  # e.g. "evaluated at the detected midband frequency"
             out["notes"] = list(self.notes)
         return out
 
@@ -119,23 +119,33 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
     with paused_gc():
         bias = ensure_bias(c, force)
         topology.require_sound(c, "dc" if at is not None and float(at) == 0 else "ac")
-        f = default_frequency(c) if at is None else float(at)
-        notes = list(bias.notes) if bias else []
-        if at is None and c.reactive:  # the flat top of the main gain, not a fixed frequency
-            from .frequency import midband_frequency
-            fm = midband_frequency(c)
-            if fm is not None:
-                f = fm
-                notes.append(f"no --at given: evaluated at the detected midband frequency, {_eng_hz(f)} "
-                             "(the flat top of the main gain)")
-            else:
-                notes.append(f"no --at given and no flat top found: evaluated at {_eng_hz(f)}")
+        f, why = analysis_frequency(c, at)
+        notes = (list(bias.notes) if bias else []) + why
         try:
             pr = port_quantities(c, f)
         except PortError as e:
             raise InputError(topology.explain_singular(c, f, str(e))) from None
         topology.warn_conditioning(c, f)
     return Result(c, f, pr.quantities, device_table(c), notes, bias)
+
+
+def analysis_frequency(c: Circuit, at: float | None = None) -> tuple[float, list[str]]:
+    """The frequency every analysis uses, and a note saying how it was chosen.
+
+    ``at`` when given; else DC for a circuit without capacitors or inductors, else the detected
+    midband (the flat top of the main gain), else 1 kHz when no flat top is found.
+    """
+    if at is not None:
+        return float(at), []
+    f = default_frequency(c)
+    if not c.reactive:
+        return f, []
+    from .frequency import midband_frequency
+    fm = midband_frequency(c)
+    if fm is None:
+        return f, [f"no --at given and no flat top found: evaluated at {_eng_hz(f)}"]
+    return fm, [f"no --at given: evaluated at the detected midband frequency, {_eng_hz(fm)} "
+                "(the flat top of the main gain)"]
 
 
 def _eng_hz(f: float) -> str:

@@ -59,7 +59,7 @@ SPECS = {
     "supply": Spec((2,), (U.VOLT, U.AMP), {}),
     "signal": Spec((2,), (U.VOLT, U.AMP), {"rs": U.OHM}),
     "load": Spec((2,), (U.OHM,), {}),
-    # fp= (or gbw=) beside gain= makes a single-pole op-amp: A(s) = gain / (1 + s/(2 pi fp)) (issue 5)
+    # fp= (or gbw=) beside gain= makes a single-pole op-amp: A(s) = gain / (1 + s/(2 pi fp))
     "opamp": Spec((3,), None, {"gain": U.ONE, "fp": U.HERTZ, "gbw": U.HERTZ}, "OUT INP INN"),
     "npn": Spec((3,), None, _BJT_PARAMS, "C B E"),
     "pnp": Spec((3,), None, _BJT_PARAMS, "C B E"),

@@ -288,10 +288,17 @@ def condition_estimate(system: System, s: complex) -> float:
             lu = spla.splu(A)
     except RuntimeError:
         return float("inf")
-    if n <= 4:
+    if n <= 300:  # small: the exact 1-norm condition number is cheap and repeatable
         return float(np.linalg.cond(A.toarray(), 1)) if np.all(np.isfinite(A.data)) else float("inf")
     inv = spla.LinearOperator((n, n), matvec=lu.solve, rmatvec=lambda x: lu.solve(x, trans="H"),
                               dtype=complex)
-    with np.errstate(all="ignore"):
-        est = spla.onenormest(A) * spla.onenormest(inv)
+    # the estimator draws random +-1 columns from numpy's global generator: seed it for the
+    # call so the same netlist always gives the same warning, and restore the caller's state
+    state = np.random.get_state()
+    try:
+        np.random.seed(20260)
+        with np.errstate(all="ignore"):
+            est = spla.onenormest(A) * spla.onenormest(inv)
+    finally:
+        np.random.set_state(state)
     return float(est) if np.isfinite(est) else float("inf")

@@ -10,8 +10,8 @@ currents, terminal voltages, region and power, and the small-signal parameters
 that follow from the bias point. pnp and pmos values keep their signs."""
 EPILOG = """\
 example:
-  portwise bias circuits/sensor_preamp.pw
-  portwise bias circuits/sensor_preamp.pw --json"""
+  portwise bias circuits/contact_pickup_preamp.pw
+  portwise bias circuits/contact_pickup_preamp.pw --json"""
 
 
 def add_arguments(p) -> None:

@@ -20,7 +20,7 @@ model only: it is an estimate, not a safety assessment."""
 
 def add_arguments(p) -> None:
     p.add_argument("file", help="netlist file (.pw)")
-    p.add_argument("--at", metavar="FREQ", help="analysis frequency (default 1 kHz; DC without reactive parts)")
+    p.add_argument("--at", metavar="FREQ", help="analysis frequency (default as solve: the detected midband; DC without reactive parts)")
     p.add_argument("--json", action="store_true", help="print JSON")
 
 
@@ -59,7 +59,7 @@ def table(verdicts) -> str:
 def run(args) -> int:
     from .. import api
     from ..diagnostics import error
-    from ..ports import PortError, default_frequency
+    from ..ports import PortError
     from ..report import CAUTION, eng
     from ..symbolic.claims import check_claims
     from .common import emit_json, frequency, print_warnings
@@ -69,7 +69,7 @@ def run(args) -> int:
     print_warnings(c)
     if not c.claims:
         raise error(None, f"'{args.file}' has no claim lines (write e.g. 'claim Av ~ -RC/RE within 10%')")
-    f = frequency(args.at) if args.at is not None else default_frequency(c)
+    f, _ = api.analysis_frequency(c, frequency(args.at) if args.at is not None else None)
     try:
         verdicts = check_claims(c, f)
     except PortError as e:

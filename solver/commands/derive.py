@@ -62,7 +62,6 @@ def tolerance(text: str) -> float:
 
 def run(args) -> int:
     from .. import api
-    from ..ports import default_frequency
     from ..symbolic.claims import parse_limit
     from ..symbolic.derive import derive
     from ..symbolic.ports import circuit_symbols
@@ -89,7 +88,7 @@ def run(args) -> int:
     keep = _names(args.keep) if args.keep else None
     numeric = _names(args.numeric)
     tol = tolerance(args.dominant) if args.dominant is not None else None
-    f = frequency(args.at) if args.at is not None else default_frequency(c)
+    f, _ = api.analysis_frequency(c, frequency(args.at) if args.at is not None else None)
     results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias)
     if args.json:
         items = []

@@ -1,6 +1,6 @@
 """Benchmark: bias solve time against circuit size (prints what it measures; not a test).
 
-Run: cd /work/wt4 && python tests/bench/bench_bias.py
+Run: python tests/bench/bench_bias.py
 Builds N four-resistor CE stages on one supply, each capacitor-coupled to the next,
 and times solver.bias.solve_bias (Newton iterations re-stamp the whole DC view).
 """

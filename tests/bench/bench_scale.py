@@ -1,6 +1,6 @@
 """How time and memory grow with netlist size, and a 1,000-transistor netlist through solve.
 
-Run: ``cd /work/wt6 && python tests/bench/bench_scale.py [--sizes 1000,10000,...]``.
+Run: ``python tests/bench/bench_scale.py [--sizes 1000,10000,...]``.
 Each size runs in its own child process, so the peak resident memory
 (``ru_maxrss``) is that size's alone. Columns: elements, seconds for parse,
 elaborate, topology checks, the port solve (three sparse LU solves) and the

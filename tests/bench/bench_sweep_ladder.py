@@ -1,13 +1,13 @@
 """Benchmark: `portwise sweep` of a 20,000-section RC ladder over 200 points vs a bare sparse-LU loop.
 
-Goal (issue 5): the whole `python -m solver sweep` process costs at most 1.3x a bare
+Goal: the whole `python -m solver sweep` process costs at most 1.3x a bare
 script that builds the same sparse MNA matrices with scipy and calls splu once per
 point. Both run as fresh processes here, each three times; the best wall times and
 their ratio are printed. The ladder is written with nested blocks (10 sections per
 level), as an engineer would write it; a flat 40,000-line netlist is also timed
 once, for information (its cost is the parser's, not the sweep's).
 
-Run:  cd /work/wt5 && python tests/bench/bench_sweep_ladder.py
+Run:  python tests/bench/bench_sweep_ladder.py
 """
 from __future__ import annotations
 

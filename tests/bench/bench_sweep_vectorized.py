@@ -3,7 +3,7 @@
 The circuit is stamped once (timed separately); the sweep itself is the batched dense
 solve of (G + s_k C) x = b for all s_k. Prints the best of five runs.
 
-Run:  cd /work/wt5 && python tests/bench/bench_sweep_vectorized.py
+Run:  python tests/bench/bench_sweep_vectorized.py
 """
 from __future__ import annotations
 

@@ -3,8 +3,8 @@
 Each stage: hybrid-pi gm, rpi, ro, cpi, cmu and a collector resistor; a source
 resistance and a load. Prints in-process compute times and the speed-up over
 naive sympy (Matrix.LUsolve then cancel) on the same MNA matrix, measured in the
-same run. Run: ``cd /work/wt3 && python tests/bench/bench_symbolic.py [--naive-max 4]``.
-Goals (issue 3): N=4 >= 100x faster than naive; N=6 exact < 1 s; N=8 compact < 5 s.
+same run. Run: ``python tests/bench/bench_symbolic.py [--naive-max 4]``.
+Goals: N=4 >= 100x faster than naive; N=6 exact < 1 s; N=8 compact < 5 s.
 """
 from __future__ import annotations
 
