@@ -12,14 +12,23 @@ from ..diagnostics import error
 from ..units import HERTZ, UnitError, parse_quantity
 
 
-def frequency(text: str, option: str = "--at") -> float:
-    """Parse ``10kHz``, ``1e3``, ``2.2 MHz`` for an option; bad text is bad input (exit 2)."""
+def option_quantity(text: str, option: str, units: tuple, unit_hint: str) -> float:
+    """A number with an optional prefix and unit from the command line, in one of ``units``.
+
+    Bad text is bad input (exit 2) naming the option; None in ``units`` admits a bare number.
+    """
     try:
         value, d = parse_quantity(text.strip())
     except UnitError as e:
         raise error(None, f"{option}: {e}") from None
-    if d not in (None, HERTZ):
-        raise error(None, f"{option}: a frequency is in Hz")
+    if d not in units:
+        raise error(None, f"{option}: {unit_hint}")
+    return value
+
+
+def frequency(text: str, option: str = "--at") -> float:
+    """Parse ``10kHz``, ``1e3``, ``2.2 MHz`` for an option; bad text is bad input (exit 2)."""
+    value = option_quantity(text, option, (None, HERTZ), "a frequency is in Hz")
     if not (value >= 0) or not math.isfinite(value):
         raise error(None, f"{option}: a frequency is a non-negative number")
     return value

@@ -50,13 +50,12 @@ def add_arguments(p) -> None:
 
 def tolerance(text: str) -> float:
     from ..diagnostics import error
-    from ..units import UnitError, parse_quantity
-    try:
-        v, d = parse_quantity(text.strip())
-    except UnitError as e:
-        raise error(None, f"--dominant: {e}") from None
-    if d not in (None, ()) and any(d) or not (0 <= v < 1):
-        raise error(None, "--dominant: a tolerance is a fraction below 1 or a percentage (5%)")
+    from ..units import ONE
+    from .common import option_quantity
+    hint = "a tolerance is a fraction below 1 or a percentage (5%)"
+    v = option_quantity(text, "--dominant", (None, ONE), hint)
+    if not (0 <= v < 1):
+        raise error(None, f"--dominant: {hint}")
     return v
 
 

@@ -37,13 +37,9 @@ def _z0(text: str) -> float:
     import math
 
     from ..diagnostics import error
-    from ..units import OHM, UnitError, parse_quantity
-    try:
-        v, d = parse_quantity(text.strip())
-    except UnitError as e:
-        raise error(None, f"--z0: {e}") from None
-    if d not in (None, OHM):
-        raise error(None, "--z0: a reference impedance is in Ω")
+    from ..units import OHM
+    from .common import option_quantity
+    v = option_quantity(text, "--z0", (None, OHM), "a reference impedance is in Ω")
     if not (v > 0 and math.isfinite(v)):
         raise error(None, "--z0: a positive resistance")
     return v
