@@ -69,7 +69,7 @@ class _Build(Transformer):
     """Parse-tree rules to dataclasses, run inline by the parser as each rule is reduced.
 
     Tokens are :class:`lark.Token` (lark's own loop) or :class:`_Tok` (the fast
-    loop); the methods only use ``str(tok)``, ``tok.line`` and ``tok.column``.
+    loop); the methods only use ``tok.value``, ``tok.line`` and ``tok.column``.
     ``file`` is set before each parse (see :func:`_run`).
     """
 
@@ -81,7 +81,7 @@ class _Build(Transformer):
         return _Kids(children)
 
     def _loc(self, tok) -> Loc:
-        text = str(tok)
+        text = tok.value
         return Loc(self.file, tok.line, tok.column, len(text) or 1)
 
     # --- statements -----------------------------------------------------------
@@ -93,16 +93,16 @@ class _Build(Transformer):
 
     def title(self, items):
         (tok,) = items
-        body = str(tok)[1:-1]
+        body = tok.value[1:-1]
         body = re.sub(r"\\(.)", r"\1", body)
         return Title(body, self._loc(tok))
 
     def let(self, items):
         name, value = items
-        return Let(str(name), value, self._loc(name))
+        return Let(name.value, value, self._loc(name))
 
     def _element(self, kw, name, groups, value, params, sense=None):
-        return ElementStmt(str(kw), str(name), groups, value, params, self._loc(kw), self._loc(name), sense)
+        return ElementStmt(kw.value, name.value, groups, value, params, self._loc(kw), self._loc(name), sense)
 
     def valued(self, items):
         kw, name, nodes, value, *params = items
@@ -130,59 +130,59 @@ class _Build(Transformer):
 
     def block(self, items):
         name, ports, *rest = items
-        return BlockStart(str(name), ports, rest[0] if rest else [], self._loc(name))
+        return BlockStart(name.value, ports, rest[0] if rest else [], self._loc(name))
 
     def end(self, items):
         return End(self._loc(items[0]))
 
     def use(self, items):
         block, inst, nodes, *rest = items
-        return Use(str(block), str(inst), nodes, rest[0] if rest else [], self._loc(inst), self._loc(block))
+        return Use(block.value, inst.value, nodes, rest[0] if rest else [], self._loc(inst), self._loc(block))
 
     def claim(self, items):
         q, op, value, *tol = items
-        kind = "exact" if str(op) == "=" else "approx"
-        return Claim(str(q), kind, value, tol[0] if tol else None, self._loc(q), self._loc(q))
+        kind = "exact" if op.value == "=" else "approx"
+        return Claim(q.value, kind, value, tol[0] if tol else None, self._loc(q), self._loc(q))
 
     def _node(self, tok) -> Node:
-        return Node(str(tok).strip(), self._loc(tok))
+        return Node(tok.value.strip(), self._loc(tok))
 
     def nodes(self, items):
         file = self.file
-        return [Node(str(t).strip(), Loc(file, t.line, t.column, len(str(t)) or 1)) for t in items]
+        return [Node(t.value.strip(), Loc(file, t.line, t.column, len(t.value) or 1)) for t in items]
 
     def params(self, items):
         return list(items)
 
     def param(self, items):
         key, value = items
-        return Param(str(key), value, self._loc(key))
+        return Param(key.value, value, self._loc(key))
 
     # --- expressions ------------------------------------------------------------
     def number(self, items):
         (tok,) = items
         try:
-            value, d = _quantity(str(tok))
+            value, d = _quantity(tok.value)
         except UnitError as e:
             raise error(self._loc(tok), str(e)) from None
-        return ex.Num(value, d, self._loc(tok), str(tok))
+        return ex.Num(value, d, self._loc(tok), tok.value)
 
     def ref(self, items):
-        return ex.Ref(tuple(str(t) for t in items), self._loc(items[0]))
+        return ex.Ref(tuple(t.value for t in items), self._loc(items[0]))
 
     def call(self, items):
         name, arg = items
-        if str(name) not in ex.FUNCTIONS:
+        if name.value not in ex.FUNCTIONS:
             raise error(self._loc(name), f"unknown function '{name}' (functions: {', '.join(ex.FUNCTIONS)})")
-        return ex.Call(str(name), arg, self._loc(name))
+        return ex.Call(name.value, arg, self._loc(name))
 
     def binop(self, items):
         left, op, right = items
-        return ex.Binary(str(op), left, right, self._loc(op))
+        return ex.Binary(op.value, left, right, self._loc(op))
 
     def unop(self, items):
         op, operand = items
-        if str(op) == "+":
+        if op.value == "+":
             return operand
         if isinstance(operand, ex.Num):  # fold -3 so that it stays a literal
             return ex.Num(-operand.value, operand.dim, self._loc(op), "-" + operand.text)
@@ -214,6 +214,51 @@ class _Fallback(Exception):
     """The fast loop met something it does not handle (any error): lark's own loop takes over."""
 
 
+def _lean(callback):
+    """The same rule callback without lark's wrapper objects (one Python call per reduction
+    instead of up to four): lark's child filter and single-child expansion are redone inline.
+
+    Only the wrappers known here are unwrapped; anything else is returned as it is.
+    """
+    from lark.parse_tree_builder import ChildFilterLALR_NoPlaceholders, ExpandSingleChild
+    expand1 = isinstance(callback, ExpandSingleChild)
+    inner = callback.node_builder if expand1 else callback
+    include = None
+    if type(inner) is ChildFilterLALR_NoPlaceholders:
+        include, inner = tuple(inner.to_include), inner.node_builder
+    if isinstance(inner, functools.partial):
+        if getattr(inner.func, "__name__", "") != "default_callback":
+            return callback
+        inner = _Kids  # lark's default callback ends in _Build.__default__, which makes a _Kids
+    elif hasattr(inner, "visit_wrapper"):
+        return callback
+    if include is None and not expand1:
+        return inner
+    if include is not None and not any(e for _, e in include):
+        picks = tuple(i for i, _ in include)
+
+        def filtered(children, f=inner, picks=picks):
+            kept = [children[i] for i in picks]
+            return kept[0] if expand1 and len(kept) == 1 else f(kept)
+        return filtered
+
+    def spliced(children, f=inner, include=include):
+        if include is None:
+            kept = children
+        else:
+            kept = []
+            for i, expand in include:  # as lark's filter: reuse the first spliced list (left recursion)
+                if expand:
+                    if kept:
+                        kept += children[i].children
+                    else:
+                        kept = children[i].children
+                else:
+                    kept.append(children[i])
+        return kept[0] if expand1 and len(kept) == 1 else f(kept)
+    return spliced
+
+
 class _Driver:
     """A lean LALR(1) loop over lark's own tables, contextual lexers and rule callbacks.
 
@@ -231,6 +276,9 @@ class _Driver:
       terminal, so each (stack, terminal) transition is worked out once and
       memoised (the callbacks to run and the stack after the shift);
     * blanks between tokens are skipped by the match that finds the next token.
+    * a line whose shape (its token types, from the same stack) has been seen a few
+      times is read by one regex match and its recorded actions replayed (see
+      :meth:`_shape`); a line that does not match is read token by token.
 
     ``tests/test_robustness.py`` checks on random inputs that it returns what
     lark's own loop returns, or gives up where lark raises.
@@ -266,7 +314,7 @@ class _Driver:
             if rule.options.expand1 and not rule.alias and len(rule.expansion) == 1 and not keep_all:
                 sym = rule.expansion[0]
                 unit = not (sym.is_term and sym.filter_out) and not (not sym.is_term and sym.name.startswith("_"))
-            self.rules.append((len(rule.expansion), str(rule.origin.name), None if unit else callbacks[rule]))
+            self.rules.append((len(rule.expansion), str(rule.origin.name), None if unit else _lean(callbacks[rule])))
         self.dropped = frozenset(dropped - kept - set(self.term_callbacks))
         # actions with plain-str keys (lark's keys are Tokens, slow to compare): shift to state s is
         # s >= 0, reduce by rule i is -1 - i
@@ -274,7 +322,9 @@ class _Driver:
                                 for sym, (act, arg) in row.items()}
                         for state, row in table.states.items()}
         self.end = table.end_states[start]
+        self.patterns = {}  # lexer -> its compiled pattern, or None (several: no line shapes there)
         self.lexers = {state: self._lexer(lexer) for state, lexer in front.lexer.lexers.items()}
+        self.state_patterns = {state: self.patterns[lexer] for state, lexer in front.lexer.lexers.items()}
         # Memo of whole LR transitions. The actions taken on a token depend only on the
         # stack of states and the token's terminal, so each stack seen gets an id, and
         # rows[id][terminal] = (callbacks to run, id of the stack after the shift, accepted?).
@@ -287,6 +337,9 @@ class _Driver:
         self.rows: list[tuple] = []  # per stack id: (match, kinds, unless, memo row)
         self.memo_size = 0
         self.start = self._intern((self.start_state,))
+        self.shape_counts: dict[tuple, int] = {}  # (stack id, token types of a line) -> lines seen
+        self.shapes: dict[int, list] = {}  # stack id -> [(regex text, program)] of its line shapes
+        self.shape_match: dict[int, tuple] = {}  # stack id -> (match of all its shapes, programs)
 
     MEMO_LIMIT = 200_000
     #: deeper stacks (deeply nested expressions) go to lark's loop: the memo keys whole stacks,
@@ -295,6 +348,8 @@ class _Driver:
     STACK_LIMIT = 50_000  # distinct stacks remembered; beyond this the memo starts afresh
     # what to do with a matched terminal (+ NEWLINE when its text may hold line breaks)
     KEEP, DROP, IGNORE, UNLESS, NEWLINE = 0, 1, 2, 3, 4
+    SHAPE_MIN = 4  # lines of one shape seen before its regex is built (small files never pay)
+    MAX_SHAPES = 64  # per stack id; beyond this new shapes just take the token loop
 
     def _lexer(self, lexer):
         """One lark contextual-lexer state as (match function, kinds, keyword callbacks)."""
@@ -305,6 +360,7 @@ class _Driver:
                         if t.name in lexer.ignore_types and t.name not in lexer.newline_types)
         if skip:
             mres = tuple(re.compile(f"(?:{skip})*(?:{m.pattern})", m.flags) for m in mres)
+        self.patterns[lexer] = mres[0] if len(mres) == 1 else None
         if len(mres) == 1:
             match = mres[0].match
         else:
@@ -322,6 +378,38 @@ class _Driver:
                     else self.DROP if name in self.dropped else self.KEEP)
             kinds[name] = kind | (self.NEWLINE if name in lexer.newline_types else 0)
         return match, kinds, unless
+
+    def _shape(self, sid: int, types: tuple) -> None:
+        """Build the replay of one line shape: the tokens ``types`` read from stack ``sid``.
+
+        The LR actions depend only on the stack and the token types, so every line of the
+        same shape from the same stack takes the same actions. One regex matches a whole
+        line of the shape: per token, the very pattern of that state's contextual lexer
+        (so each token is exactly the one the token loop would find), atomic (no other
+        split of the line is tried), then a check that the terminal is the recorded one.
+        A line that does not match takes the token loop, so errors are never replayed.
+        """
+        shapes = self.shapes.setdefault(sid, [])
+        if len(shapes) >= self.MAX_SHAPES:
+            return
+        first, k, parts, steps, flags = sid, len(shapes), [], [], None
+        for i, ttype in enumerate(types):
+            mre = self.state_patterns[self.stacks[sid][-1]]
+            if mre is None or flags not in (None, mre.flags):
+                return
+            flags, prefix = mre.flags, f"s{k}_{i}_"
+            body = re.sub(r"\(\?P<(\w+)>", lambda g: f"(?P<{prefix}{g.group(1)}>", mre.pattern)
+            if re.compile(body, flags).groups != mre.groups or ttype not in mre.groupindex:
+                return  # a group inside a terminal pattern: not worth the risk
+            parts.append(f"(?>{body})(?({prefix}{ttype})|(?!))")
+            keep = (self.rows[sid][1][ttype] & ~self.NEWLINE) == self.KEEP
+            ops, sid, accepted = self.rows[sid][3].get(ttype) or self._step(sid, ttype)
+            if accepted:
+                return
+            steps.append((ops, prefix + ttype, ttype if keep else None))
+        shapes.append((f"(?P<S{k}>{''.join(parts)})", (tuple(steps), sid)))
+        programs = {f"S{j}": prog for j, (_, prog) in enumerate(shapes)}
+        self.shape_match[first] = (re.compile("|".join(t for t, _ in shapes), flags).match, programs)
 
     def _intern(self, stack: tuple) -> int:
         i = self.stack_ids.get(stack)
@@ -372,8 +460,36 @@ class _Driver:
         KEEP, DROP, IGNORE, NEWLINE = self.KEEP, self.DROP, self.IGNORE, self.NEWLINE
         sid, values = self.start, []
         pos, line, line_start, n = 0, 1, 0, len(text)
+        shape_match, shape_counts = self.shape_match, self.shape_counts
+        # the token types of the current line so far (None: a line no shape can describe)
+        rec, rec_sid = [], sid
         while True:
+            if rec is not None and not rec and sid in shape_match:  # a line starts: try its shapes
+                m = shape_match[sid][0](text, pos)
+                if m is not None:
+                    steps, sid = shape_match[sid][1][m.lastgroup]
+                    for ops, group, ttype in steps:
+                        for callback, size in ops:
+                            if size:
+                                children = values[-size:]
+                                del values[-size:]
+                            else:
+                                children = []
+                            values.append(callback(children))
+                        if ttype is None:
+                            values.append(None)
+                        else:
+                            start, end = m.span(group)
+                            values.append(_Tok(ttype, text[start:end], line, start - line_start + 1))
+                    start, pos = m.span(group)  # the last token holds the line break(s)
+                    k = text.count("\n", start, pos)
+                    if k:
+                        line += k
+                        line_start = text.rindex("\n", start, pos) + 1
+                    rec_sid = sid
+                    continue
             match, kinds, unless, memo = rows[sid]
+            eol = False
             if pos >= n:
                 ttype, tok = "$END", None
             else:
@@ -381,8 +497,10 @@ class _Driver:
                 if m is None:
                     raise _Fallback(pos)
                 ttype = m.lastgroup
-                value = m.group(ttype)
-                pos = m.start(ttype)
+                # one span call: the terminal's group ends where the match ends (lark's
+                # alternatives are whole groups, and the blanks skipped come before them)
+                pos, end = m.span(ttype)
+                value = text[pos:end]
                 kind = kinds[ttype]
                 tok_line, col = line, pos - line_start + 1
                 if kind & NEWLINE:
@@ -391,14 +509,19 @@ class _Driver:
                     if k:
                         line += k
                         line_start = pos + value.rindex("\n") + 1
-                pos = m.end()
+                        eol = True
+                    else:
+                        rec = None  # a replay could not count its line breaks
+                pos = end
                 if kind == KEEP:
                     tok = _Tok(ttype, value, tok_line, col)
                 elif kind == DROP:
                     tok = None
                 elif kind == IGNORE:
+                    rec = None  # (a continuation line, or blanks the skip did not take)
                     continue
                 else:  # a name that may be a keyword: lark's own callback decides
+                    rec = None
                     tok = unless[ttype](_Tok(ttype, value, tok_line, col))
                     ttype = tok.type
                     if ttype in dropped:
@@ -416,7 +539,19 @@ class _Driver:
                 values.append(callback(children))
             if accepted:
                 return values[-1]
-            values.append(term_callbacks[ttype](tok) if ttype in term_callbacks else tok)
+            if ttype in term_callbacks:
+                rec = None
+                tok = term_callbacks[ttype](tok)
+            values.append(tok)
+            if rec is not None:
+                rec.append(ttype)
+            if eol:  # count the shape of the line just read; a frequent one gets its regex
+                if rec is not None:
+                    key = (rec_sid, tuple(rec))
+                    seen = shape_counts[key] = shape_counts.get(key, 0) + 1
+                    if seen == self.SHAPE_MIN and len(shape_counts) < self.STACK_LIMIT:
+                        self._shape(rec_sid, key[1])
+                rec, rec_sid = [], sid
 
 
 @functools.lru_cache(maxsize=None)
