@@ -12,6 +12,7 @@ length, control characters, expression depth) are checked here too.
 from __future__ import annotations
 
 import functools
+import operator
 import re
 import threading
 from pathlib import Path
@@ -236,11 +237,26 @@ def _lean(callback):
         return inner
     if include is not None and not any(e for _, e in include):
         picks = tuple(i for i, _ in include)
+        if len(picks) == 1 and not expand1:
+            return lambda children, f=inner, i=picks[0]: f([children[i]])
+        if len(picks) > 1:  # itemgetter: no per-call comprehension
+            pick = operator.itemgetter(*picks)
+            return lambda children, f=inner, pick=pick: f(list(pick(children)))
 
         def filtered(children, f=inner, picks=picks):
             kept = [children[i] for i in picks]
             return kept[0] if expand1 and len(kept) == 1 else f(kept)
         return filtered
+
+    if include is not None and include[0][1] and not any(e for _, e in include[1:]):
+        head, rest = include[0][0], tuple(i for i, _ in include[1:])
+
+        def left(children, f=inner, head=head, rest=rest):  # a left-recursive repetition
+            kept = children[head].children
+            for i in rest:
+                kept.append(children[i])
+            return kept[0] if expand1 and len(kept) == 1 else f(kept)
+        return left
 
     def spliced(children, f=inner, include=include):
         if include is None:
@@ -348,7 +364,7 @@ class _Driver:
     STACK_LIMIT = 50_000  # distinct stacks remembered; beyond this the memo starts afresh
     # what to do with a matched terminal (+ NEWLINE when its text may hold line breaks)
     KEEP, DROP, IGNORE, UNLESS, NEWLINE = 0, 1, 2, 3, 4
-    SHAPE_MIN = 4  # lines of one shape seen before its regex is built (small files never pay)
+    SHAPE_MIN = 100  # lines of one shape seen before its regex is built (a few ms: small files never pay)
     MAX_SHAPES = 64  # per stack id; beyond this new shapes just take the token loop
 
     def _lexer(self, lexer):
@@ -398,9 +414,9 @@ class _Driver:
             if mre is None or flags not in (None, mre.flags):
                 return
             flags, prefix = mre.flags, f"s{k}_{i}_"
-            body = re.sub(r"\(\?P<(\w+)>", lambda g: f"(?P<{prefix}{g.group(1)}>", mre.pattern)
-            if re.compile(body, flags).groups != mre.groups or ttype not in mre.groupindex:
-                return  # a group inside a terminal pattern: not worth the risk
+            body, renamed = re.subn(r"\(\?P<(\w+)>", lambda g: f"(?P<{prefix}{g.group(1)}>", mre.pattern)
+            if renamed != len(mre.groupindex) or ttype not in mre.groupindex:
+                return  # a named group inside a terminal pattern: not worth the risk
             parts.append(f"(?>{body})(?({prefix}{ttype})|(?!))")
             keep = (self.rows[sid][1][ttype] & ~self.NEWLINE) == self.KEEP
             ops, sid, accepted = self.rows[sid][3].get(ttype) or self._step(sid, ttype)
@@ -461,10 +477,11 @@ class _Driver:
         sid, values = self.start, []
         pos, line, line_start, n = 0, 1, 0, len(text)
         shape_match, shape_counts = self.shape_match, self.shape_counts
-        # the token types of the current line so far (None: a line no shape can describe)
+        # the token types of the current line so far (None: a line no shape can describe);
+        # shapes start after a line's first token, so that its stack picks the few shapes to try
         rec, rec_sid = [], sid
         while True:
-            if rec is not None and not rec and sid in shape_match:  # a line starts: try its shapes
+            if rec is not None and len(rec) == 1 and sid in shape_match:
                 m = shape_match[sid][0](text, pos)
                 if m is not None:
                     steps, sid = shape_match[sid][1][m.lastgroup]
@@ -486,7 +503,7 @@ class _Driver:
                     if k:
                         line += k
                         line_start = text.rindex("\n", start, pos) + 1
-                    rec_sid = sid
+                    rec = []
                     continue
             match, kinds, unless, memo = rows[sid]
             eol = False
@@ -545,13 +562,15 @@ class _Driver:
             values.append(tok)
             if rec is not None:
                 rec.append(ttype)
+                if len(rec) == 1:
+                    rec_sid = sid
             if eol:  # count the shape of the line just read; a frequent one gets its regex
-                if rec is not None:
-                    key = (rec_sid, tuple(rec))
+                if rec is not None and len(rec) > 1:
+                    key = (rec_sid, tuple(rec[1:]))
                     seen = shape_counts[key] = shape_counts.get(key, 0) + 1
                     if seen == self.SHAPE_MIN and len(shape_counts) < self.STACK_LIMIT:
                         self._shape(rec_sid, key[1])
-                rec, rec_sid = [], sid
+                rec = []
 
 
 @functools.lru_cache(maxsize=None)

@@ -45,6 +45,17 @@ LINES = [
 ]
 
 
+@pytest.fixture(autouse=True, scope="module")
+def _shapes_early():
+    """Build line shapes after two lines (not the default hundred), so small netlists replay."""
+    old = P._Driver.SHAPE_MIN
+    P._Driver.SHAPE_MIN = 2
+    P._driver("start")._reset()
+    yield
+    P._Driver.SHAPE_MIN = old
+    P._driver("start")._reset()
+
+
 def _same(text: str) -> None:
     """parse() (fast loop, shapes) and lark's loop agree: statements, or the error text."""
     try:
@@ -64,6 +75,7 @@ def test_circuit_files(path):
     text = path.read_text(encoding="utf-8")
     _same(text)
     _same(text * 6)  # every line shape now repeats: replayed from the second copy on
+    assert P._driver("start").shape_match
 
 
 @settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
