@@ -66,6 +66,12 @@ class _Kids:
         self.children = children
 
 
+# A Loc from a (file, line, col, width) tuple without the named tuple's Python-level __new__
+# (half the cost; the parser makes several per line). Only while Loc is that named tuple.
+_new_loc = (functools.partial(tuple.__new__, Loc) if issubclass(Loc, tuple)
+            and Loc._fields == ("file", "line", "col", "width") else lambda t: Loc(*t))
+
+
 class _Build(Transformer):
     """Parse-tree rules to dataclasses, run inline by the parser as each rule is reduced.
 
@@ -82,8 +88,7 @@ class _Build(Transformer):
         return _Kids(children)
 
     def _loc(self, tok) -> Loc:
-        text = tok.value
-        return Loc(self.file, tok.line, tok.column, len(text) or 1)
+        return _new_loc((self.file, tok.line, tok.column, len(tok.value) or 1))
 
     # --- statements -----------------------------------------------------------
     def start(self, items):
@@ -150,7 +155,7 @@ class _Build(Transformer):
 
     def nodes(self, items):
         file = self.file
-        return [Node(t.value.strip(), Loc(file, t.line, t.column, len(t.value) or 1)) for t in items]
+        return [Node(t.value.strip(), _new_loc((file, t.line, t.column, len(t.value) or 1))) for t in items]
 
     def params(self, items):
         return list(items)
@@ -257,6 +262,18 @@ def _lean(callback):
                 kept.append(children[i])
             return kept[0] if expand1 and len(kept) == 1 else f(kept)
         return left
+
+    if include is not None and include[-1][1] and not any(e for _, e in include[:-1]):
+        picks, last = tuple(i for i, _ in include[:-1]), include[-1][0]
+
+        def right(children, f=inner, picks=picks, last=last):  # kept children, then a repetition
+            kept = [children[i] for i in picks]
+            if kept:
+                kept += children[last].children
+            else:
+                kept = children[last].children
+            return kept[0] if expand1 and len(kept) == 1 else f(kept)
+        return right
 
     def spliced(children, f=inner, include=include):
         if include is None:
