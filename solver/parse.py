@@ -583,6 +583,8 @@ class _Driver:
                     rec_sid = sid
             if eol:  # count the shape of the line just read; a frequent one gets its regex
                 if rec is not None and len(rec) > 1:
+                    if len(shape_counts) > self.STACK_LIMIT:  # many one-off lines: stay bounded
+                        shape_counts.clear()
                     key = (rec_sid, tuple(rec[1:]))
                     seen = shape_counts[key] = shape_counts.get(key, 0) + 1
                     if seen == self.SHAPE_MIN and len(shape_counts) < self.STACK_LIMIT:
