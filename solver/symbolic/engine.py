@@ -23,7 +23,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from fractions import Fraction
 
-from .ring import Ring
+from .ring import Ring, evaluate_dict  # noqa: F401  (re-exported for ports and claims)
 from .stamper import S_NAME
 
 
@@ -204,17 +204,6 @@ def to_sympy(num: dict, den: dict, gens: list[str]):
     if d == 0:
         return sympy.oo if n != 0 else sympy.nan  # an open port: unbounded
     return n / d
-
-
-def evaluate_dict(d: dict, point) -> complex:
-    total = 0j
-    for m, c in d.items():
-        t = complex(float(c))
-        for x, e in zip(point, m):
-            if e:
-                t *= x ** e
-        total += t
-    return total
 
 
 def fraction_of(x) -> Fraction:

@@ -129,11 +129,16 @@ class Ring:
 
     def evaluate(self, p, point) -> complex:
         """Numeric value at ``point`` (one complex number per generator), in floating point."""
-        total = 0j
-        for m, c in self.to_dict(p).items():
-            t = complex(float(c))
-            for x, e in zip(point, m):
-                if e:
-                    t *= x ** e
-            total += t
-        return total
+        return evaluate_dict(self.to_dict(p), point)
+
+
+def evaluate_dict(d: dict, point) -> complex:
+    """Value of a polynomial given as {exponent tuple: coefficient} at one complex point per generator."""
+    total = 0j
+    for m, c in d.items():
+        t = complex(float(c))
+        for x, e in zip(point, m):
+            if e:
+                t *= x ** e
+        total += t
+    return total
