@@ -17,7 +17,7 @@ from .diagnostics import Loc, error
 from .units import ONE, Dim, dim_name
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Num:
     value: float
     dim: Dim | None
@@ -25,7 +25,7 @@ class Num:
     text: str
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Ref:
     parts: tuple[str, ...]
     loc: Loc
@@ -35,14 +35,14 @@ class Ref:
         return ".".join(self.parts)
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Unary:
     op: str
     operand: "Expr"
     loc: Loc
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Binary:
     op: str  # + - * / ^ ||
     left: "Expr"
@@ -50,7 +50,7 @@ class Binary:
     loc: Loc
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Call:
     func: str
     arg: "Expr"
@@ -62,7 +62,7 @@ FUNCTIONS = ("sqrt", "exp", "ln", "log10", "abs")
 CONSTANTS = {"pi": math.pi}
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Value:
     """A real value with its dimension (None: a free, bare number)."""
 

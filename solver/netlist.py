@@ -11,33 +11,33 @@ from .diagnostics import Loc
 from .expr import Expr, Ref
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Node:
     name: str
     loc: Loc
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Param:
     key: str
     value: Expr
     loc: Loc
 
 
-@dataclass
+@dataclass(slots=True)
 class Title:
     text: str
     loc: Loc
 
 
-@dataclass
+@dataclass(slots=True)
 class Let:
     name: str
     value: Expr
     loc: Loc
 
 
-@dataclass
+@dataclass(slots=True)
 class ElementStmt:
     """Any statement that places an element: ``KEYWORD NAME (nodes)... [sense] [value] params``."""
 
@@ -51,19 +51,19 @@ class ElementStmt:
     sense: Ref | None = None
 
 
-@dataclass
+@dataclass(slots=True)
 class Output:
     nodes: list[Node]
     loc: Loc
 
 
-@dataclass
+@dataclass(slots=True)
 class Ground:
     node: Node
     loc: Loc
 
 
-@dataclass
+@dataclass(slots=True)
 class BlockStart:
     name: str
     ports: list[Node]
@@ -71,12 +71,12 @@ class BlockStart:
     loc: Loc
 
 
-@dataclass
+@dataclass(slots=True)
 class End:
     loc: Loc
 
 
-@dataclass
+@dataclass(slots=True)
 class Use:
     block: str
     instance: str
@@ -86,7 +86,7 @@ class Use:
     block_loc: Loc
 
 
-@dataclass
+@dataclass(slots=True)
 class Claim:
     quantity: str
     kind: str  # "exact" (=) | "approx" (~)

@@ -393,7 +393,11 @@ class _Driver:
                         if t.name in lexer.ignore_types and t.name not in lexer.newline_types)
         if skip:
             mres = tuple(re.compile(f"(?:{skip})*(?:{m.pattern})", m.flags) for m in mres)
-        self.patterns[lexer] = mres[0] if len(mres) == 1 else None
+        # for line shapes: (skip, terminals in the order the alternation tries them, flags)
+        order = sorted(mres[0].groupindex.items(), key=lambda kv: kv[1]) if len(mres) == 1 else ()
+        regexps = {t.name: t.pattern.to_regexp() for t in lexer.terminals}
+        self.patterns[lexer] = (skip, tuple((name, regexps[name]) for name, _ in order),
+                                mres[0].flags) if order and all(n in regexps for n, _ in order) else None
         if len(mres) == 1:
             match = mres[0].match
         else:
@@ -417,32 +421,51 @@ class _Driver:
 
         The LR actions depend only on the stack and the token types, so every line of the
         same shape from the same stack takes the same actions. One regex matches a whole
-        line of the shape: per token, the very pattern of that state's contextual lexer
-        (so each token is exactly the one the token loop would find), atomic (no other
-        split of the line is tried), then a check that the terminal is the recorded one.
-        A line that does not match takes the token loop, so errors are never replayed.
+        line of the shape. Per token: the blanks the state's lexer skips (possessively),
+        then the expected terminal's own pattern (atomic), behind a negative lookahead of
+        the terminals that state's lexer tries *before* it and that could start at the
+        same character (:func:`solver.firstchars.disjoint` leaves out the others). So a
+        line matches only if the token loop would read exactly these tokens with these
+        spans; a line that does not match takes the token loop, so errors are never replayed.
         """
+        from .firstchars import disjoint
         shapes = self.shapes.setdefault(sid, [])
         if len(shapes) >= self.MAX_SHAPES:
             return
         first, k, parts, steps, flags = sid, len(shapes), [], [], None
         for i, ttype in enumerate(types):
-            mre = self.state_patterns[self.stacks[sid][-1]]
-            if mre is None or flags not in (None, mre.flags):
+            lexer = self.state_patterns[self.stacks[sid][-1]]
+            if lexer is None or flags not in (None, lexer[2]):
                 return
-            flags, prefix = mre.flags, f"s{k}_{i}_"
-            body, renamed = re.subn(r"\(\?P<(\w+)>", lambda g: f"(?P<{prefix}{g.group(1)}>", mre.pattern)
-            if renamed != len(mre.groupindex) or ttype not in mre.groupindex:
-                return  # a named group inside a terminal pattern: not worth the risk
-            parts.append(f"(?>{body})(?({prefix}{ttype})|(?!))")
+            skip, order, flags = lexer
+            names = [name for name, _ in order]
+            if ttype not in names:
+                return
+            regexps = dict(order)
+            target = regexps[ttype]
+            if re.search(r"\\[1-9]|\(\?P[<=]", target):
+                return  # a group of its own inside a terminal: not worth the risk
+            before = [r for name, r in order[:names.index(ttype)] if not disjoint(r, target)]
+            guard = f"(?!{'|'.join(f'(?:{r})' for r in before)})" if before else ""
+            blanks = f"(?:{skip})*+" if skip else ""
+            group = f"s{k}_{i}"
+            parts.append(f"{blanks}{guard}(?P<{group}>(?>{target}))")
             keep = (self.rows[sid][1][ttype] & ~self.NEWLINE) == self.KEEP
             ops, sid, accepted = self.rows[sid][3].get(ttype) or self._step(sid, ttype)
             if accepted:
                 return
-            steps.append((ops, prefix + ttype, ttype if keep else None))
-        shapes.append((f"(?P<S{k}>{''.join(parts)})", (tuple(steps), sid)))
-        programs = {f"S{j}": prog for j, (_, prog) in enumerate(shapes)}
-        self.shape_match[first] = (re.compile("|".join(t for t, _ in shapes), flags).match, programs)
+            steps.append((ops, group, ttype if keep else None))
+        shapes.append((f"(?P<S{k}>{''.join(parts)})", (steps, sid)))
+        pattern = re.compile("|".join(t for t, _ in shapes), flags)
+        programs = {}
+        for j, (_, (steps_j, end_sid)) in enumerate(shapes):
+            program = []
+            for ops, group, ttype in steps_j:
+                program += [(callback, size, 0) for callback, size in ops]
+                program.append((None, pattern.groupindex[group], ttype))
+            last = pattern.groupindex[steps_j[-1][1]]  # the last token holds the line break(s)
+            programs[f"S{j}"] = (tuple(program), last, end_sid)
+        self.shape_match[first] = (pattern.match, programs)
 
     def _intern(self, stack: tuple) -> int:
         i = self.stack_ids.get(stack)
@@ -501,21 +524,22 @@ class _Driver:
             if rec is not None and len(rec) == 1 and sid in shape_match:
                 m = shape_match[sid][0](text, pos)
                 if m is not None:
-                    steps, sid = shape_match[sid][1][m.lastgroup]
-                    for ops, group, ttype in steps:
-                        for callback, size in ops:
-                            if size:
-                                children = values[-size:]
-                                del values[-size:]
+                    program, last, sid = shape_match[sid][1][m.lastgroup]
+                    regs = m.regs
+                    for callback, arg, ttype in program:
+                        if callback is not None:  # a reduction of ``arg`` children
+                            if arg:
+                                children = values[-arg:]
+                                del values[-arg:]
                             else:
                                 children = []
                             values.append(callback(children))
-                        if ttype is None:
+                        elif ttype is None:  # a token every rule drops
                             values.append(None)
                         else:
-                            start, end = m.span(group)
+                            start, end = regs[arg]
                             values.append(_Tok(ttype, text[start:end], line, start - line_start + 1))
-                    start, pos = m.span(group)  # the last token holds the line break(s)
+                    start, pos = regs[last]
                     k = text.count("\n", start, pos)
                     if k:
                         line += k
@@ -663,6 +687,7 @@ def _check_text(text: str, file: str, diags: Diagnostics) -> None:
 
 # C0 controls other than tab, newline, carriage return and form feed; DEL; C1 controls; surrogates
 _CONTROL = re.compile("[\x00-\x08\x0b\x0e-\x1f\x7f-\x9f\ud800-\udfff]")
+_LINE_OVER_DEPTH = re.compile(f"^[^\\n]{{{MAX_EXPR_DEPTH + 1}}}", re.M)
 _LONG_LINE = re.compile(f"^[^\\n]{{{MAX_LINE_CHARS + 1}}}", re.M)  # tried at line starts only
 
 
@@ -707,10 +732,14 @@ def parse(text: str, file: str = "<string>") -> Netlist:
         nl = None
     if nl is None:
         nl = _parse_by_line(text, file, diags)
-    for s in nl.statements:
-        for e in _exprs(s):
-            if ex.depth(e) > MAX_EXPR_DEPTH:
-                diags.error(e.loc, f"expression nested deeper than {MAX_EXPR_DEPTH} levels")
+    # Every level of an expression beyond the first takes an operator or a function name of
+    # its own, so a tree deeper than the limit needs a line longer than it: with no line
+    # that long and no continued line (no backslash at all), no expression needs measuring.
+    if "\\" in text or _LINE_OVER_DEPTH.search(text):
+        for s in nl.statements:
+            for e in _exprs(s):
+                if ex.depth(e) > MAX_EXPR_DEPTH:
+                    diags.error(e.loc, f"expression nested deeper than {MAX_EXPR_DEPTH} levels")
     diags.check()
     return nl
 

@@ -1,6 +1,6 @@
 """Parse speed in netlist lines per second (goal: at least 50,000).
 
-Run: ``cd /work/wt6 && python tests/bench/bench_parse.py [LINES]``. Prints one
+Run: ``python tests/bench/bench_parse.py [LINES]`` from the project root. Prints one
 row per netlist kind: lines, best-of-5 seconds, lines/s, for the fast LALR loop
 (the default path of ``solver.parse.parse``) and for lark's own loop on the same
 grammar and transformer, so the gain of the fast loop is visible.
