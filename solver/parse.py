@@ -355,7 +355,7 @@ class _Driver:
                                 for sym, (act, arg) in row.items()}
                         for state, row in table.states.items()}
         self.end = table.end_states[start]
-        self.patterns = {}  # lexer -> its compiled pattern, or None (several: no line shapes there)
+        self.patterns = {}  # lexer -> (skip, ordered terminals, flags), or None (no line shapes there)
         self.lexers = {state: self._lexer(lexer) for state, lexer in front.lexer.lexers.items()}
         self.state_patterns = {state: self.patterns[lexer] for state, lexer in front.lexer.lexers.items()}
         # Memo of whole LR transitions. The actions taken on a token depend only on the
