@@ -62,7 +62,7 @@ FUNCTIONS = ("sqrt", "exp", "ln", "log10", "abs")
 CONSTANTS = {"pi": math.pi}
 
 
-@dataclass(slots=True, unsafe_hash=True)
+@dataclass(frozen=True)
 class Value:
     """A real value with its dimension (None: a free, bare number)."""
 
