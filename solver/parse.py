@@ -87,7 +87,7 @@ class _Build(Transformer):
     def __default__(self, data, children, meta):
         return _Kids(children)
 
-    def _loc(self, tok) -> Loc:
+    def _loc(self, tok) -> Loc:  # (inlined in the callbacks a netlist line calls most)
         return _new_loc((self.file, tok.line, tok.column, len(tok.value) or 1))
 
     # --- statements -----------------------------------------------------------
@@ -108,7 +108,10 @@ class _Build(Transformer):
         return Let(name.value, value, self._loc(name))
 
     def _element(self, kw, name, groups, value, params, sense=None):
-        return ElementStmt(kw.value, name.value, groups, value, params, self._loc(kw), self._loc(name), sense)
+        file = self.file
+        return ElementStmt(kw.value, name.value, groups, value, params,
+                           _new_loc((file, kw.line, kw.column, len(kw.value) or 1)),
+                           _new_loc((file, name.line, name.column, len(name.value) or 1)), sense)
 
     def valued(self, items):
         kw, name, nodes, value, *params = items
@@ -143,7 +146,10 @@ class _Build(Transformer):
 
     def use(self, items):
         block, inst, nodes, *rest = items
-        return Use(block.value, inst.value, nodes, rest[0] if rest else [], self._loc(inst), self._loc(block))
+        file = self.file
+        return Use(block.value, inst.value, nodes, rest[0] if rest else [],
+                   _new_loc((file, inst.line, inst.column, len(inst.value) or 1)),
+                   _new_loc((file, block.line, block.column, len(block.value) or 1)))
 
     def claim(self, items):
         q, op, value, *tol = items
@@ -162,7 +168,7 @@ class _Build(Transformer):
 
     def param(self, items):
         key, value = items
-        return Param(key.value, value, self._loc(key))
+        return Param(key.value, value, _new_loc((self.file, key.line, key.column, len(key.value) or 1)))
 
     # --- expressions ------------------------------------------------------------
     def number(self, items):
@@ -171,10 +177,12 @@ class _Build(Transformer):
             value, d = _quantity(tok.value)
         except UnitError as e:
             raise error(self._loc(tok), str(e)) from None
-        return ex.Num(value, d, self._loc(tok), tok.value)
+        return ex.Num(value, d, _new_loc((self.file, tok.line, tok.column, len(tok.value) or 1)), tok.value)
 
     def ref(self, items):
-        return ex.Ref(tuple(t.value for t in items), self._loc(items[0]))
+        tok = items[0]
+        return ex.Ref((tok.value,) if len(items) == 1 else tuple([t.value for t in items]),
+                      _new_loc((self.file, tok.line, tok.column, len(tok.value) or 1)))
 
     def call(self, items):
         name, arg = items
@@ -184,7 +192,7 @@ class _Build(Transformer):
 
     def binop(self, items):
         left, op, right = items
-        return ex.Binary(op.value, left, right, self._loc(op))
+        return ex.Binary(op.value, left, right, _new_loc((self.file, op.line, op.column, len(op.value) or 1)))
 
     def unop(self, items):
         op, operand = items
@@ -220,24 +228,43 @@ class _Fallback(Exception):
     """The fast loop met something it does not handle (any error): lark's own loop takes over."""
 
 
-def _lean(callback):
-    """The same rule callback without lark's wrapper objects (one Python call per reduction
-    instead of up to four): lark's child filter and single-child expansion are redone inline.
-
-    Only the wrappers known here are unwrapped; anything else is returned as it is.
-    """
+def _unwrap(callback):
+    """``(inner, include, expand1)`` of a lark rule callback: the function that builds the
+    node, lark's child filter (``(index, splice?)`` pairs, or None for all children) and
+    whether a single kept child stands for the node (``?rule``). None for a callback of
+    a shape not known here."""
     from lark.parse_tree_builder import ChildFilterLALR_NoPlaceholders, ExpandSingleChild
     expand1 = isinstance(callback, ExpandSingleChild)
     inner = callback.node_builder if expand1 else callback
     include = None
     if type(inner) is ChildFilterLALR_NoPlaceholders:
         include, inner = tuple(inner.to_include), inner.node_builder
+        if isinstance(inner, ExpandSingleChild):  # lark nests the two either way round
+            expand1, inner = True, inner.node_builder
     if isinstance(inner, functools.partial):
         if getattr(inner.func, "__name__", "") != "default_callback":
-            return callback
+            return None
         inner = _Kids  # lark's default callback ends in _Build.__default__, which makes a _Kids
     elif hasattr(inner, "visit_wrapper"):
-        return callback
+        return None
+    return inner, include, expand1
+
+
+def _lean(callback):
+    """The same rule callback without lark's wrapper objects (one Python call per reduction
+    instead of up to four): lark's child filter and single-child expansion are redone inline.
+
+    Only the wrappers known here are unwrapped; anything else is returned as it is.
+    """
+    parts = _unwrap(callback)
+    return callback if parts is None else _wrap(*parts)
+
+
+def _wrap(inner, include, expand1, size=None):
+    """One lean function for ``inner`` behind the child filter ``include`` (see :func:`_unwrap`);
+    ``size``, when known, is the number of children (a filter that keeps them all is dropped)."""
+    if size is not None and include == tuple((i, False) for i in range(size)):
+        include = None
     if include is None and not expand1:
         return inner
     if include is not None and not any(e for _, e in include):
@@ -348,6 +375,7 @@ class _Driver:
                 sym = rule.expansion[0]
                 unit = not (sym.is_term and sym.filter_out) and not (not sym.is_term and sym.name.startswith("_"))
             self.rules.append((len(rule.expansion), str(rule.origin.name), None if unit else _lean(callbacks[rule])))
+        self.rule_parts = [_unwrap(callbacks[rule]) for rule in rules]  # for the replays (see _shape)
         self.dropped = frozenset(dropped - kept - set(self.term_callbacks))
         # actions with plain-str keys (lark's keys are Tokens, slow to compare): shift to state s is
         # s >= 0, reduce by rule i is -1 - i
@@ -373,6 +401,7 @@ class _Driver:
         self.shape_counts: dict[tuple, int] = {}  # (stack id, token types of a line) -> lines seen
         self.shapes: dict[int, list] = {}  # stack id -> [(regex text, program)] of its line shapes
         self.shape_match: dict[int, tuple] = {}  # stack id -> (match of all its shapes, programs)
+        self.variants: dict[tuple, object] = {}  # (rule, children present) -> callback (see _shape)
 
     MEMO_LIMIT = 200_000
     #: deeper stacks (deeply nested expressions) go to lark's loop: the memo keys whole stacks,
@@ -432,9 +461,10 @@ class _Driver:
         shapes = self.shapes.setdefault(sid, [])
         if len(shapes) >= self.MAX_SHAPES:
             return
-        first, k, parts, steps, flags = sid, len(shapes), [], [], None
+        k, parts, events, flags = len(shapes), [], [], None
+        stack = list(self.stacks[sid])
         for i, ttype in enumerate(types):
-            lexer = self.state_patterns[self.stacks[sid][-1]]
+            lexer = self.state_patterns[stack[-1]]
             if lexer is None or flags not in (None, lexer[2]):
                 return
             skip, order, flags = lexer
@@ -450,22 +480,116 @@ class _Driver:
             blanks = f"(?:{skip})*+" if skip else ""
             group = f"s{k}_{i}"
             parts.append(f"{blanks}{guard}(?P<{group}>(?>{target}))")
-            keep = (self.rows[sid][1][ttype] & ~self.NEWLINE) == self.KEEP
-            ops, sid, accepted = self.rows[sid][3].get(ttype) or self._step(sid, ttype)
-            if accepted:
+            kind = self.lexers[stack[-1]][1][ttype] & ~self.NEWLINE
+            if kind not in (self.KEEP, self.DROP):
                 return
-            steps.append((ops, group, ttype if keep else None))
-        shapes.append((f"(?P<S{k}>{''.join(parts)})", (steps, sid)))
+            reduced, accepted = self._simulate(stack, ttype)
+            if accepted or len(stack) > self.MAX_FAST_DEPTH:
+                return
+            events += [(rule, None) for rule in reduced]
+            events.append((group, ttype if kind == self.KEEP else None))
+        program = self._program(len(self.stacks[sid]) - 1, events)
+        if program is None:
+            return
+        shapes.append((f"(?P<S{k}>{''.join(parts)})", (program, group, self._intern(tuple(stack)))))
         pattern = re.compile("|".join(t for t, _ in shapes), flags)
         programs = {}
-        for j, (_, (steps_j, end_sid)) in enumerate(shapes):
-            program = []
-            for ops, group, ttype in steps_j:
-                program += [(callback, size, 0) for callback, size in ops]
-                program.append((None, pattern.groupindex[group], ttype))
-            last = pattern.groupindex[steps_j[-1][1]]  # the last token holds the line break(s)
-            programs[f"S{j}"] = (tuple(program), last, end_sid)
-        self.shape_match[first] = (pattern.match, programs)
+        for j, (_, (program_j, last, end_sid)) in enumerate(shapes):
+            # the last token holds the line break(s)
+            programs[f"S{j}"] = (self._encode(program_j, pattern.groupindex), pattern.groupindex[last], end_sid)
+        self.shape_match[sid] = (pattern.match, programs)
+
+    @staticmethod
+    def _encode(program: list, groups: dict) -> tuple:
+        """A replay program as :meth:`run` reads it, ``(callback, arg, ttype)`` per step:
+
+        * ``(callback, n, None)``: reduce the top ``n`` values;
+        * ``(None, 0, None)``: push ``None`` (a dropped token);
+        * ``(None, g, ttype)``: push the token of regex group ``g``;
+        * ``(callback, g, ttype)``: the same token, at once reduced alone (a number, a name).
+        """
+        out = []
+        for callback, arg, ttype in program:
+            if callback is not None:
+                if arg == 1 and out and out[-1][0] is None and out[-1][2] is not None:
+                    out[-1] = (callback, out[-1][1], out[-1][2])
+                else:
+                    out.append((callback, arg, None))
+            else:
+                out.append((None, groups[arg], ttype) if ttype is not None else (None, 0, None))
+        return tuple(out)
+
+    def _program(self, depth: int, events: list):
+        """The replay program of a line shape, or None when one cannot be made.
+
+        ``events`` are, in order, ``(rule, None)`` for a reduction and ``(group, ttype)`` for
+        a token shift (``ttype`` None for a token every rule drops), on a stack of ``depth``
+        values. Steps are ``(callback, children, 0)`` and ``(None, group, ttype)``. A dropped
+        token that a reduction of the same line takes is never pushed: that reduction gets a
+        callback that expects it missing (and one that would only pass its single child on
+        is left out). Dropped tokens still on the stack at the end of the line are pushed
+        as ``None``, as the token loop does, since the token loop reduces them later.
+        """
+        # which shifts a reduction of this line takes (values of earlier lines are -1)
+        ids, taken = [-1] * depth, set()
+        for n, (what, _) in enumerate(events):
+            if isinstance(what, int):
+                size = self.rules[what][0]
+                if size:
+                    taken.update(ids[-size:])
+                    del ids[-size:]
+                ids.append(-1)
+            else:
+                ids.append(n)
+        present, program = [True] * depth, []
+        for n, (what, ttype) in enumerate(events):
+            if not isinstance(what, int):
+                if ttype is None and n in taken:
+                    present.append(False)
+                else:
+                    present.append(True)
+                    program.append((None, what, ttype))
+                continue
+            size, _, callback = self.rules[what]
+            popped = tuple(present[-size:]) if size else ()
+            if size:
+                del present[-size:]
+            present.append(True)
+            if callback is None:  # a unit reduction: its child is a kept symbol, never missing
+                continue
+            if all(popped):
+                program.append((callback, size, None))
+                continue
+            key = (what, popped)
+            if key not in self.variants:
+                self.variants[key] = self._variant(what, popped)
+            variant = self.variants[key]
+            if variant is False:
+                return None
+            if variant is not None:
+                program.append((variant, sum(popped), None))
+        return program
+
+    def _variant(self, rule: int, present: tuple):
+        """The callback of ``rule`` for children with the dropped tokens marked False in
+        ``present`` missing: None when it would just pass its one child on, False when
+        no such callback can be made here."""
+        parts = self.rule_parts[rule]
+        if parts is None:
+            return False
+        inner, include, expand1 = parts
+        if include is None:
+            return False  # (a rule that keeps every child has no dropped token)
+        where = {}
+        for i, here in enumerate(present):
+            if here:
+                where[i] = len(where)
+        if any(i not in where for i, _ in include):
+            return False
+        include = tuple((where[i], splice) for i, splice in include)
+        if expand1 and include == ((0, False),) and len(where) == 1:
+            return None
+        return _wrap(inner, include, expand1, size=len(where))
 
     def _intern(self, stack: tuple) -> int:
         i = self.stack_ids.get(stack)
@@ -475,35 +599,39 @@ class _Driver:
             self.rows.append(self.lexers[stack[-1]] + ({},))
         return i
 
-    def _step(self, sid: int, ttype: str):
-        """Run the LR(1) actions for one token from stack ``sid``; remember the result."""
+    def _simulate(self, stack: list, ttype: str):
+        """The LR(1) actions for one token on ``stack`` (changed in place): the rules reduced
+        by, in order, and whether the input is accepted; :class:`_Fallback` on a syntax error."""
         actions, rules = self.actions, self.rules
-        stack = list(self.stacks[sid])
-        ops = []
+        reduced = []
         while True:
             a = actions[stack[-1]].get(ttype)
             if a is None:
                 raise _Fallback(ttype)
             if a >= 0:
                 stack.append(a)
-                accepted = False
-                break
-            size, origin, callback = rules[-1 - a]
-            if callback is not None:
-                ops.append((callback, size))
+                return reduced, False
+            reduced.append(-1 - a)
+            size, origin, _ = rules[-1 - a]
             if size:
                 del stack[-size:]
             stack.append(actions[stack[-1]][origin])
             if ttype == "$END" and stack[-1] == self.end:
-                accepted = True
-                break
+                return reduced, True
+
+    def _step(self, sid: int, ttype: str):
+        """Run the LR(1) actions for one token from stack ``sid``; remember the result."""
+        stack = list(self.stacks[sid])
+        reduced, accepted = self._simulate(stack, ttype)
+        ops = tuple((callback, size) for size, _, callback in map(self.rules.__getitem__, reduced)
+                    if callback is not None)
         if len(stack) > self.MAX_FAST_DEPTH:
             raise _Fallback("deep")
         if self.memo_size > self.MEMO_LIMIT:  # a pathological input: start afresh, stay bounded
             for row in self.rows:
                 row[3].clear()
             self.memo_size = 0
-        hit = (tuple(ops), self._intern(tuple(stack)), accepted)
+        hit = (ops, self._intern(tuple(stack)), accepted)
         self.rows[sid][3][ttype] = hit
         self.memo_size += 1
         return hit
@@ -526,19 +654,22 @@ class _Driver:
                 if m is not None:
                     program, last, sid = shape_match[sid][1][m.lastgroup]
                     regs = m.regs
-                    for callback, arg, ttype in program:
-                        if callback is not None:  # a reduction of ``arg`` children
-                            if arg:
+                    for callback, arg, ttype in program:  # (see _encode)
+                        if ttype is None:
+                            if callback is None:
+                                values.append(None)
+                            elif arg == 1:
+                                values[-1] = callback([values[-1]])
+                            elif arg:
                                 children = values[-arg:]
                                 del values[-arg:]
+                                values.append(callback(children))
                             else:
-                                children = []
-                            values.append(callback(children))
-                        elif ttype is None:  # a token every rule drops
-                            values.append(None)
+                                values.append(callback([]))
                         else:
                             start, end = regs[arg]
-                            values.append(_Tok(ttype, text[start:end], line, start - line_start + 1))
+                            tok = _Tok(ttype, text[start:end], line, start - line_start + 1)
+                            values.append(tok if callback is None else callback([tok]))
                     start, pos = regs[last]
                     k = text.count("\n", start, pos)
                     if k:
