@@ -408,8 +408,12 @@ def solve_bias(c: Circuit, strategy: str = "auto", max_iter: int = MAX_NEWTON) -
     >>> round(r.nodes["a"], 3), r.devices["D1"]["region"]
     (0.63, 'forward')
     """
-    devs = nonlinear_devices(c)
+    from .topology import check_bias  # source loops, current cut sets, undefined gates: named first
     linear = dc_elements(c)
+    errors = [d for d in check_bias(c, linear) if d.severity == "error"]
+    if errors:
+        raise InputError(errors)
+    devs = nonlinear_devices(c)
     ties, warns = floating_ties(c, linear)
     linear = linear + ties
     starts = [d.start() for d in devs]

@@ -138,7 +138,8 @@ def _first_loc(bs, fallback: Loc) -> Loc:
 
 
 def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_nodes=(),
-                   context: str = "", single: bool = True) -> list[Diagnostic]:
+                   context: str = "", single: bool = True, tied: bool = False,
+                   reactive: bool | None = None) -> list[Diagnostic]:
     """All graph checks on one set of branches; errors and warnings in netlist terms.
 
     Linear in the number of branches (union-find, one pass per check), so it
@@ -157,13 +158,23 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
         Appended to each message (e.g. " without the load").
     single : bool
         Also warn about nodes with a single connection.
+    tied : bool
+        Leave out the groups with no path to the reference that no control input
+        reads (the bias solve ties those to the reference through a high resistance,
+        with its own warning): their voltage does not change any other result.
+    reactive : bool, optional
+        Whether the circuit has capacitors or inductors (the DC wording says what the
+        view left out); by default ``circuit.reactive``.
 
     Returns
     -------
     list of Diagnostic
     """
     where = Loc(circuit.file, 1, 1)
-    dc = " in the DC view (capacitors open, inductors shorted)" if view == "dc" and circuit.reactive else ""
+    if view == "dc" and (circuit.reactive if reactive is None else reactive):
+        dc = " in the DC view (capacitors open, inductors shorted)"
+    else:
+        dc = ""
     diags: list[Diagnostic] = []
     ground = circuit.ground
     ports = [GND if n in ground else n for n in port_nodes]
@@ -236,8 +247,14 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
                        f"resistance to the reference, e.g. a transistor's ro or a bias resistor){context}")
                 loc = _first_loc(c_, where)
             elif r in inner:
+                if tied and r not in sensed:
+                    continue
                 msg = (f"{what} {shown} {'has' if one else 'have'} no path to the reference node{dc}{context}"
                        f" (joined by {_names(inner[r], _label)})")
+                if tied:
+                    msg += (f"; {_names(sensed[r], _label)} read{'s' if len(sensed[r]) == 1 else ''}"
+                            f" {'its' if one else 'their'} voltage, so the bias is undefined (add a bias"
+                            " resistor to a fixed voltage)")
                 loc = _first_loc(inner[r], where)
             else:
                 s_ = sensed.get(r, [])
@@ -344,6 +361,69 @@ def check(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
             break  # the loaded configuration's errors explain the unloaded ones
     by_line = lambda d: (d.loc.line, d.loc.col) if d.loc else (0, 0)  # noqa: E731
     return sorted(errors, key=by_line) + sorted(warnings, key=by_line)
+
+
+def device_branches(c: Circuit) -> list[Branch]:
+    """The large-signal devices as graph branches of the bias solve's DC view.
+
+    A transistor's junctions and a diode conduct (impedances: "r"); a MOSFET's channel
+    joins drain and source, and its gate only reads a voltage (a sense).
+
+    Examples
+    --------
+    >>> from solver.api import loads
+    >>> c = loads("supply VDD (vdd, gnd) 5 V\\nsignal VS (g, gnd) 1 V\\nnmos M1 (d, g, gnd) k=1m, vth=1\\n"
+    ...           "resistor RD (vdd, d) 1k\\noutput (d, gnd)\\n")
+    >>> [(b.name, b.nodes, b.senses) for b in device_branches(c)]
+    [('M1', ('d', '\\x00gnd'), ('g',))]
+    """
+    canon = (lambda n: GND if n in c.ground else n)  # noqa: E731
+    out = []
+    for d in c.devices:
+        t = {k: canon(n) for k, n in d.nodes.items()}
+        if d.is_bjt:
+            out += [Branch(d.name, "r", (t["B"], t["E"]), d.loc, (), d.name),
+                    Branch(d.name, "r", (t["B"], t["C"]), d.loc, (), d.name)]
+        elif d.is_mos:
+            out.append(Branch(d.name, "r", (t["D"], t["S"]), d.loc, (t["G"],), d.name))
+        else:
+            out.append(Branch(d.name, "r", (t["A"], t["K"]), d.loc, (), d.name))
+    return out
+
+
+def check_bias(circuit: Circuit, linear: list[Element]) -> list[Diagnostic]:
+    """Graph checks of the bias solve's DC view, before Newton–Raphson starts.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    linear : list of Element
+        The linear elements at DC (:func:`solver.bias.dc_elements`): supplies at their
+        values, the signal zeroed behind its rs, the load in place.
+
+    Returns
+    -------
+    list of Diagnostic
+        Errors: loops of voltage-defined branches (inductors are shorts here), cut sets
+        of current-defined branches, and groups with no DC path to the reference whose
+        voltage a control input reads (a MOSFET gate, an op-amp input, a controlled
+        source). A group that nothing reads is left to the bias solve, which ties it to
+        the reference and warns.
+
+    Examples
+    --------
+    >>> from solver.api import loads
+    >>> from solver.bias import dc_elements
+    >>> c = loads("supply VCC (vcc, gnd) 9 V\\nsignal VS (a, gnd) 1 mV\\ninductor L1 (vcc, gnd) 1 mH\\n"
+    ...           "resistor R1 (a, gnd) 1k\\nload RL (a, gnd) 10k\\n")
+    >>> [d.message.split(";")[0] for d in check_bias(c, dc_elements(c))]
+    ['a loop of voltage-defined branches in the DC view (capacitors open, inductors shorted): L1 (line 3), VCC (line 1)']
+    """
+    bs = branches(linear, circuit.ground, "dc") + device_branches(circuit)
+    diags = check_branches(bs, circuit, "dc", single=False, tied=True,
+                           reactive=any(e.reactive for e in linear))
+    by_line = lambda d: (d.loc.line, d.loc.col) if d.loc else (0, 0)  # noqa: E731
+    return sorted(diags, key=by_line)
 
 
 def _biased_part(c: Circuit) -> Circuit:

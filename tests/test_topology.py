@@ -191,3 +191,80 @@ def test_op_amp_constraints_that_the_graph_checks_cannot_see():
                             "opamp U2 (n3, n4, n2)\ncapacitor C3 (n1, n2) 1 nF\nload RL (n2, gnd) 1k\n")
     assert "structurally singular" in msgs[0] and "undetermined: node 'n3'" in msgs[0]
     assert "the input condition of op-amp U2 (v+ = v-)" in msgs[0] and diags[0].loc.line == 4
+
+
+# --- the bias solve's DC view (capacitors open, inductors shorted), checked before Newton ---
+# The same classical conditions (Chua & Lin, 1975, from memory), on the large-signal circuit:
+# junctions conduct, a MOSFET gate and an op-amp input only read a voltage.
+GATE_STAGE = """supply VDD (vdd, gnd) 12 V
+signal VS (in, gnd) 10 mV, rs=10k
+capacitor C1 (in, g) 100n
+{bias}
+nmos M1 (d, g, s) k=4 mA/V^2, vth=1 V
+resistor RD (vdd, d) 4k7
+resistor RS (s, gnd) 1k
+capacitor C2 (d, out) 1u
+load RL (out, gnd) 47k
+"""
+
+
+def bias_errors(cli, netlist, text):
+    r = cli("bias", netlist(text))
+    assert r.returncode == 2 and "Traceback" not in r.stderr, r.stderr
+    return [ln for ln in r.stderr.splitlines() if ": error: " in ln]
+
+
+def test_a_gate_reached_only_through_a_capacitor_is_an_error(cli, netlist):
+    # the gate divider forgotten: nothing sets the gate's DC voltage (it draws no current)
+    errs = bias_errors(cli, netlist, GATE_STAGE.format(bias="# no gate bias"))
+    assert len(errs) == 1
+    assert "node 'g' is only sensed by M1 (line 5)" in errs[0] and "in the DC view" in errs[0]
+    assert ":5:" in errs[0]
+
+
+def test_a_floating_gate_network_names_its_resistor_and_the_reader(cli, netlist):
+    errs = bias_errors(cli, netlist, GATE_STAGE.format(bias="resistor RG (g, gx) 1M"))
+    assert len(errs) == 1
+    assert "nodes 'g', 'gx' have no path to the reference node in the DC view" in errs[0]
+    assert "joined by RG (line 4)" in errs[0] and "M1 (line 5) reads their voltage" in errs[0]
+
+
+def test_with_the_divider_the_same_stage_biases(cli, netlist):
+    r = cli("bias", netlist(GATE_STAGE.format(bias="resistor RG1 (vdd, g) 3M3\nresistor RG2 (g, gnd) 1M")))
+    assert r.returncode == 0, r.stderr
+
+
+def test_a_node_between_two_capacitors_is_tied_with_a_warning(cli, netlist):
+    # nothing reads its voltage, so the bias of everything else is well defined
+    text = GATE_STAGE.format(bias="resistor RG1 (vdd, g) 3M3\nresistor RG2 (g, gnd) 1M").replace(
+        "capacitor C2 (d, out) 1u", "capacitor C2 (d, mid) 1u\ncapacitor C3 (mid, out) 1u")
+    r = cli("bias", netlist(text))
+    assert r.returncode == 0, r.stderr
+    assert "node mid has no DC path to ground" in r.stderr and "1 TΩ" in r.stderr
+
+
+def test_a_current_supply_into_a_capacitor_is_a_cut_set(cli, netlist):
+    # 1 mA into a node that only a capacitor leaves: the DC voltage would run away
+    text = GATE_STAGE.format(bias="resistor RG1 (vdd, g) 3M3\nresistor RG2 (g, gnd) 1M") + \
+        "supply IX (vdd, x) 1 mA\ncapacitor CX (x, gnd) 1u\n"
+    errs = bias_errors(cli, netlist, text)
+    assert len(errs) == 1 and "node 'x' connects to the rest of the circuit only through" in errs[0]
+    assert "IX (line 11)" in errs[0]
+
+
+def test_an_inductor_across_a_supply_is_a_dc_loop(cli, netlist):
+    text = GATE_STAGE.format(bias="resistor RG1 (vdd, g) 3M3\nresistor RG2 (g, gnd) 1M") + \
+        "inductor LF (vdd, gnd) 10 mH\n"
+    errs = bias_errors(cli, netlist, text)
+    assert len(errs) == 1 and "a loop of voltage-defined branches in the DC view" in errs[0]
+    assert "VDD (line 1)" in errs[0] and "LF (line 11)" in errs[0]
+
+
+def test_an_op_amp_input_behind_a_capacitor_is_an_error(cli, netlist):
+    # a capacitor-coupled non-inverting input with no bias resistor: the ideal input draws
+    # no current, so its DC level (and the output's) is undefined
+    text = ("supply VCC (vcc, gnd) 12 V\nsignal VS (in, gnd) 10 mV, rs=1k\ncapacitor C1 (in, p) 1u\n"
+            "opamp U1 (out, p, n)\nresistor RF (out, n) 10k\nresistor RG (n, gnd) 1k\n"
+            "npn Q1 (vcc, out, e) beta=100\nresistor RE (e, gnd) 1k\nload RL (e, gnd) 10k\n")
+    errs = bias_errors(cli, netlist, text)
+    assert len(errs) == 1 and "node 'p' is only sensed by U1" in errs[0]
