@@ -60,6 +60,9 @@ class Branch(NamedTuple):
     loc: Loc | None
     senses: tuple[str, ...] = ()
     origin: str = ""  # the netlist element or device it came from
+    #: an ideal op-amp's output (a norator to the reference); its two senses are the
+    #: inputs, a nullator: v+ = v- with no current
+    nullor: bool = False
 
 
 def branches(elements: list[Element], ground: set[str], view: str = "ac") -> list[Branch]:
@@ -85,7 +88,8 @@ def branches(elements: list[Element], ground: set[str], view: str = "ac") -> lis
                 kind = "r"  # capacitors and inductors are impedances at any frequency above zero
         if isinstance(e, Nullor):
             out_node, inp, inn = e.nodes
-            out.append(Branch(e.name, "v", (canon(out_node), GND), e.loc, (canon(inp), canon(inn)), e.origin))
+            out.append(Branch(e.name, "v", (canon(out_node), GND), e.loc, (canon(inp), canon(inn)), e.origin,
+                              nullor=True))
             continue
         senses = tuple(canon(n) for n in getattr(e, "ctrl", ()) or ())
         out.append(Branch(e.name, kind, (canon(e.nodes[0]), canon(e.nodes[1])), e.loc, senses, e.origin))
@@ -130,6 +134,10 @@ def _names(items, key=str) -> str:
 
 def _label(b: Branch) -> str:
     return f"{b.name} (line {b.loc.line})" if b.loc else b.name
+
+
+def _opamp(b: Branch) -> str:
+    return f"op-amp {b.origin or b.name}" + (f" (line {b.loc.line})" if b.loc else "")
 
 
 def _first_loc(bs, fallback: Loc) -> Loc:
@@ -206,6 +214,38 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
             continue
         vadj.setdefault(a, []).append((c, b))
         vadj.setdefault(c, []).append((a, b))
+
+    # 2b. an ideal op-amp's input pair (a nullator: v+ = v-) closing a loop of voltage-defined
+    # branches (op-amp outputs, norators, left out: their voltage is free) or of other input
+    # pairs: the input condition then repeats what the loop fixes, and nothing sets the output
+    nsets, nadj = _Sets(), {}
+    for b in bs:
+        if b.kind == "v" and not b.nullor and b.nodes[0] != b.nodes[1] and nsets.union(*b.nodes):
+            a, c = b.nodes
+            nadj.setdefault(a, []).append((c, b))
+            nadj.setdefault(c, []).append((a, b))
+    for b in bs:
+        if not b.nullor:
+            continue
+        a, c = b.senses
+        name = _opamp(b)
+        if a == c:
+            diags.append(Diagnostic(
+                "error", b.loc or where,
+                f"{name} has both inputs on {_show(a, circuit)}{dc}: its input condition v+ = v- says nothing, "
+                f"so nothing sets its output (connect the inputs to different nodes){context}"))
+            continue
+        if not nsets.union(a, c):
+            loop = _path(nadj, a, c)
+            diags.append(Diagnostic(
+                "error", b.loc or where,
+                f"the inputs of {name}, {_show(a, circuit)} and {_show(c, circuit)}, are already tied by "
+                f"{_names(loop, lambda x: _label(x) if not x.nullor else 'the inputs of ' + _opamp(x))}"
+                f"{dc}: its input condition v+ = v- repeats what they fix, so nothing sets its output "
+                f"(an input at a supply rail or the signal is an AC short; feed the output back instead){context}"))
+            continue
+        nadj.setdefault(a, []).append((c, b))
+        nadj.setdefault(c, []).append((a, b))
 
     # 3. groups with no path to the reference, through impedances and voltage-defined branches
     sets = _Sets()

@@ -184,13 +184,44 @@ def test_device_without_bias_is_a_clean_error():
     assert diags[0].loc.line == 2
 
 
-def test_op_amp_constraints_that_the_graph_checks_cannot_see():
-    # nullor input conditions are not branches of the graph: a structurally singular set of them
-    # is named by the bipartite matching (Duff 1981, maximum transversal, from memory)
+def test_op_amp_inputs_on_a_pair_another_op_amp_already_ties():
+    # two nullators across the same node pair (U0 and U2 both force v(n4) = v(n2)): a loop of
+    # voltage constraints, the nullor dual of a loop of voltage sources (Chua & Lin 1975, and
+    # J. Vlach, K. Singhal, Computer Methods for Circuit Analysis and Design, 2nd ed., the
+    # nullor sections, from memory), named before any solve
     msgs, diags = errors_of("signal VS (n1, gnd) 1 uA, rs=10k\nopamp U0 (n4, n4, n2)\nopamp U1 (n2, n2, n1)\n"
                             "opamp U2 (n3, n4, n2)\ncapacitor C3 (n1, n2) 1 nF\nload RL (n2, gnd) 1k\n")
-    assert "structurally singular" in msgs[0] and "undetermined: node 'n3'" in msgs[0]
-    assert "the input condition of op-amp U2 (v+ = v-)" in msgs[0] and diags[0].loc.line == 4
+    assert len(msgs) == 1 and diags[0].loc.line == 4
+    assert msgs[0].startswith("the inputs of op-amp U2 (line 4), 'n4' and 'n2', are already tied by "
+                              "the inputs of op-amp U0 (line 2)")
+
+
+def test_op_amp_inputs_shorted_or_across_a_rail():
+    msgs, diags = errors_of("signal VS (in, gnd) 10 mV, rs=1k\nresistor RI (in, n) 1k\nopamp U1 (out, n, n)\n"
+                            "resistor RF (n, out) 10k\nload RL (out, gnd) 10k\n")
+    assert msgs == ["op-amp U1 (line 3) has both inputs on 'n': its input condition v+ = v- says nothing, "
+                    "so nothing sets its output (connect the inputs to different nodes)"]
+    # a supply is an AC short, so inputs at the rail and at ground are tied already
+    msgs, _ = errors_of("supply VCC (vcc, gnd) 12 V\nsignal VS (in, gnd) 10 mV, rs=1k\nresistor RI (in, out) 1k\n"
+                        "opamp U1 (out, vcc, gnd)\nload RL (out, gnd) 10k\n")
+    assert len(msgs) == 1 and "are already tied by VCC (line 1)" in msgs[0]
+
+
+def test_a_follower_driven_without_source_resistance_passes_the_graph_checks():
+    # signal, nullator (in, out) and the output (a norator) form a loop; the norator's voltage
+    # is free, so this is not a loop of constraints: unity gain (Sedra & Smith, 7th ed., 2.3.4,
+    # from memory)
+    c = api.loads("signal VS (in, gnd) 10 mV\nopamp U1 (out, in, out)\nload RL (out, gnd) 10k\n")
+    assert api.solve(c).quantities["Av"] == pytest.approx(1.0, rel=1e-12)
+
+
+def test_op_amp_constraints_that_the_graph_checks_cannot_see():
+    # an op-amp with no feedback passes the graph checks (no loop of constraints), but nothing
+    # sets its output: named by the bipartite matching (Duff 1981, maximum transversal, from memory)
+    msgs, diags = errors_of("signal VS (in, gnd) 1 mV, rs=10k\nopamp U1 (out, in, n)\n"
+                            "resistor RN (n, gnd) 1k\nload RL (out, gnd) 1k\n")
+    assert "structurally singular" in msgs[0] and "undetermined: the output current of op-amp U1" in msgs[0]
+    assert "the input condition of op-amp U1 (v+ = v-)" in msgs[0]
 
 
 # --- the bias solve's DC view (capacitors open, inductors shorted), checked before Newton ---
