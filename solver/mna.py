@@ -166,7 +166,8 @@ def assemble(elements: list[Element], ground: set[str]) -> System:
 #: a scaled condition estimate above this loses more than about 12 of the 16 significant digits
 #: of double precision (relative error ~ cond * 2.2e-16), so the results deserve a warning
 COND_WARN = 1e12
-#: the dense null-space analysis of a numerically singular system is limited to this many unknowns
+#: up to this many unknowns the null space of a numerically singular system comes from a dense
+#: SVD; above it, from inverse iteration on one sparse LU factorization
 DENSE_LIMIT = 2000
 
 
@@ -185,6 +186,8 @@ class Singularity:
     structural: bool
     rank: int
     size: int
+    #: True when ``rank`` is an upper bound (one null direction found by inverse iteration)
+    estimated: bool = False
 
 
 def _equilibrate(A: sp.csc_matrix) -> sp.csc_matrix:
@@ -243,7 +246,7 @@ def diagnose(system: System, s: complex) -> Singularity:
         undetermined = [names[j] for j in range(n) if row_of_col[j] < 0]
         return Singularity(undetermined, redundant, True, rank, n)
     if n > DENSE_LIMIT:
-        return Singularity([], [], False, rank, n)
+        return _sparse_null(A, names)
     import scipy.linalg as sla
     M = A.toarray()
     U, sv, Vh = sla.svd(M)
@@ -258,6 +261,41 @@ def diagnose(system: System, s: complex) -> Singularity:
     undetermined = [names[j] for j in np.flatnonzero(V > 0.1 * V.max())]
     redundant = [names[i] for i in np.flatnonzero(W > 0.1 * W.max())]
     return Singularity(undetermined, redundant, False, n - k, n)
+
+
+def _sparse_null(A: sp.csc_matrix, names: list[str]) -> Singularity:
+    """The weakest right and left directions of a large equilibrated matrix by inverse
+    iteration: a few solves with one sparse LU of A (shifted off zero when A is exactly
+    singular), which amplify the null-space components of a random start.
+
+    References
+    ----------
+    G. H. Golub, C. F. Van Loan, *Matrix Computations*, 4th ed., section 8.2.2 (inverse
+    iteration), from memory.
+    """
+    n = A.shape[0]
+    A = sp.csc_matrix(A, dtype=complex)
+    lu = None
+    with np.errstate(all="ignore"):
+        for shift in (0.0, 1e-10, 1e-7):  # entries are O(1) after equilibration
+            try:
+                lu = spla.splu(sp.csc_matrix(A + shift * sp.identity(n, format="csc")))
+                break
+            except RuntimeError:
+                continue
+    if lu is None:
+        return Singularity([], [], False, n - 1, n, estimated=True)
+    rng = np.random.default_rng(0)  # repeatable messages
+    found = []
+    for trans in ("N", "H"):
+        x = rng.standard_normal(n) + 0j
+        with np.errstate(all="ignore"):
+            for _ in range(4):
+                x = lu.solve(x, trans=trans)
+                x /= np.linalg.norm(x) or 1.0
+        x = np.abs(np.nan_to_num(x))
+        found.append([names[j] for j in np.flatnonzero(x > 0.1 * x.max())] if x.max() > 0 else [])
+    return Singularity(found[0], found[1], False, n - 1, n, estimated=True)
 
 
 def condition_estimate(system: System, s: complex) -> float:

@@ -584,7 +584,8 @@ def explain_singular(c: Circuit, frequency_hz: float, what: str) -> list[Diagnos
         info = diagnose(system, s)
         kind = "structurally singular (the pattern of connections alone)" if info.structural else \
             "numerically singular (the element values cancel)"
-        msg = f"the circuit {desc} is {kind} at {frequency_hz:g} Hz: rank {info.rank} of {info.size}"
+        msg = (f"the circuit {desc} is {kind} at {frequency_hz:g} Hz: rank {'at most ' if info.estimated else ''}"
+               f"{info.rank} of {info.size}")
         kinds = {e.name: type(e) for e in system.stamper.elements if e.needs_branch}
         if info.undetermined:
             msg += f"; undetermined: {_names(info.undetermined, lambda u: _unknown(u, c, kinds))}"

@@ -14,6 +14,7 @@ import pytest
 from solver import api
 from solver.diagnostics import InputError
 from solver.elements import CurrentSource, Resistor, VCCS
+from solver import mna
 from solver.mna import COND_WARN, assemble, condition_estimate, diagnose
 
 
@@ -299,3 +300,30 @@ def test_an_op_amp_input_behind_a_capacitor_is_an_error(cli, netlist):
             "npn Q1 (vcc, out, e) beta=100\nresistor RE (e, gnd) 1k\nload RL (e, gnd) 10k\n")
     errs = bias_errors(cli, netlist, text)
     assert len(errs) == 1 and "node 'p' is only sensed by U1" in errs[0]
+
+
+def _cancelling_arms_behind_a_ladder(n: int) -> str:
+    lines = ["signal VS (n0, gnd) 1 V, rs=1k"]
+    lines += [f"resistor R{i} (n{i}, n{i + 1}) 100\nresistor RS{i} (n{i + 1}, gnd) 10k" for i in range(n)]
+    lines += ["resistor RA (a, gnd) 1k", "resistor RB (a, gnd) -1k", f"vccs G1 (a, gnd) (n{n}, gnd) 1 mS",
+              "vcvs E1 (out, gnd) (a, gnd) 2", "load RL (out, gnd) 1k"]
+    return "\n".join(lines) + "\n"
+
+
+def test_a_large_numerically_singular_system_still_names_the_node():
+    # the sign slip of circuits/mistakes/sign_slip.pw behind a 2,500-node resistive ladder: past
+    # the dense SVD limit, inverse iteration on one sparse LU (Golub & Van Loan, Matrix
+    # Computations, 4th ed., 8.2.2, from memory) must still find the node whose arms cancel
+    msgs, _ = errors_of(_cancelling_arms_behind_a_ladder(2500))
+    assert "numerically singular" in msgs[0] and "rank at most 2505 of 2506" in msgs[0]
+    assert "undetermined: node 'a', node 'out';" in msgs[0]  # out = 2·v(a) follows it
+    assert "dependent equations: KCL at " in msgs[0]
+
+
+def test_the_sparse_null_directions_agree_with_the_dense_svd(monkeypatch):
+    # the same diagnosis both ways on a size the SVD (scipy.linalg.svd) handles
+    text = _cancelling_arms_behind_a_ladder(300)
+    dense, _ = errors_of(text)
+    monkeypatch.setattr(mna, "DENSE_LIMIT", 10)
+    sparse, _ = errors_of(text)
+    assert sparse[0] == dense[0].replace("rank 305", "rank at most 305")
