@@ -403,6 +403,46 @@ def check(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
     return sorted(errors, key=by_line) + sorted(warnings, key=by_line)
 
 
+def check_two_port(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
+    """Topology diagnostics of the network that ``portwise twoport`` measures.
+
+    The network is the circuit without its signal and load; the graph checks run
+    with both ports terminated (a resistance across each), the configuration of
+    the S-parameter measurement, so that a fault inside the network is named
+    instead of every matrix coming out as "does not exist".
+
+    Parameters
+    ----------
+    circuit : Circuit
+    view : "ac" or "dc"
+
+    Returns
+    -------
+    list of Diagnostic
+        Errors first, then warnings.
+
+    Examples
+    --------
+    >>> from solver.api import loads
+    >>> c = loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nresistor R2 (x, y) 1k\\nload RL (b, gnd) 1k\\n")
+    >>> [d.message.split(" (joined")[0] for d in check_two_port(c) if d.severity == "error"]
+    ["nodes 'x', 'y' have no path to the reference node with both ports terminated"]
+    """
+    from .elements import Resistor
+    from .ports import small_signal_elements
+    if circuit.signal is None or not (circuit.load or circuit.output):
+        return []
+    ends = [Resistor("port 1 termination", tuple(circuit.signal.nodes), 1.0, None, "", circuit.signal.loc),
+            Resistor("port 2 termination", tuple(circuit.output_port), 1.0, None, "",
+                     circuit.output_loc or (circuit.load.loc if circuit.load else None))]
+    elements = small_signal_elements(_biased_part(circuit)) + ends
+    diags = check_branches(branches(elements, circuit.ground, view), circuit, view,
+                           context=" with both ports terminated")
+    by_line = lambda d: (d.loc.line, d.loc.col) if d.loc else (0, 0)  # noqa: E731
+    return (sorted([d for d in diags if d.severity == "error"], key=by_line)
+            + sorted([d for d in diags if d.severity != "error"], key=by_line))
+
+
 def device_branches(c: Circuit) -> list[Branch]:
     """The large-signal devices as graph branches of the bias solve's DC view.
 
@@ -474,7 +514,7 @@ def _biased_part(c: Circuit) -> Circuit:
     return dataclasses.replace(c, devices=[d for d in c.devices if d.ss])
 
 
-def require_sound(circuit: Circuit, view: str = "ac") -> None:
+def require_sound(circuit: Circuit, view: str = "ac", two_port: bool = False) -> None:
     """Run :func:`check`; raise InputError with every error, keep warnings on the circuit.
 
     Parameters
@@ -482,6 +522,8 @@ def require_sound(circuit: Circuit, view: str = "ac") -> None:
     circuit : Circuit
     view : "ac" or "dc"
         "dc" for a solve at 0 Hz and for the bias solve, "ac" otherwise.
+    two_port : bool
+        Check the network ``portwise twoport`` measures instead (:func:`check_two_port`).
 
     Raises
     ------
@@ -511,7 +553,7 @@ def require_sound(circuit: Circuit, view: str = "ac") -> None:
                                      f"give {what} (or gm=), or solve the bias first"))
     if errors:
         raise InputError(errors + [d for d in circuit.warnings if d.severity == "warning"])
-    diags = check(circuit, view)
+    diags = check_two_port(circuit, view) if two_port else check(circuit, view)
     errors = [d for d in diags if d.severity == "error"]
     if errors:
         raise InputError(errors + [d for d in circuit.warnings + diags if d.severity == "warning"])

@@ -161,3 +161,20 @@ def test_twoport_bad_input_exits_2(cli, args, message):
     # user errors: exit 2 with a diagnostic, never a traceback (the project's rule)
     r = cli("twoport", CIRCUITS / "hydrophone_ce_stage.pw", *args)
     assert r.returncode == 2 and message in r.stderr and "Traceback" not in r.stderr
+
+
+def test_a_fault_inside_the_network_is_named_before_measuring(cli, netlist):
+    # a floating pair inside the tee (Chua & Lin 1975, topological conditions, from memory):
+    # one diagnostic at its line, not six matrices that "do not exist"
+    p = netlist(TEE + "resistor R4 (x, y) 1k\n")
+    r = cli("twoport", p, "--at", "1kHz")
+    assert r.returncode == 2 and "Traceback" not in r.stderr
+    assert (f"{p}:6:1: error: nodes 'x', 'y' have no path to the reference node with both ports "
+            "terminated (joined by R4 (line 6))") in r.stderr
+    # a port that is a short at DC (an inductor across port 1) is not a fault of the network:
+    # the checks pass, z22 = R2 + R1 || R3 (closed form of the tee), and y does not exist
+    r = cli("twoport", netlist(TEE + "inductor L1 (a, gnd) 1 mH\n", "l.pw"), "--at", "0", "--json")
+    assert r.returncode == 0, r.stderr
+    d = json.loads(r.stdout)
+    assert d["y"] is None
+    assert d["z"][1][1]["re"] == pytest.approx(R2 + R1 * R3 / (R1 + R3), rel=1e-12)

@@ -133,6 +133,8 @@ def run(args) -> int:
     c = api.load(args.file)
     from ..bias import ensure_bias
     ensure_bias(c)  # devices given by DC parameters: bias first (refuses a device outside its region)
+    from ..topology import require_sound
+    require_sound(c, "dc" if at == 0 else "ac", two_port=True)  # faults inside the network, named first
     try:
         tp = two_port(c, at, z0) if at is not None else None
         if args.touchstone:
