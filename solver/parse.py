@@ -224,6 +224,9 @@ def _builder(parser: Lark) -> "_Build":
     return parser.options.transformer
 
 
+_CHAR_CLASS_PLUS = re.compile(r"\[(?:[^\]\\]|\\.)*\]\+")  # one character class, one or more
+
+
 class _Fallback(Exception):
     """The fast loop met something it does not handle (any error): lark's own loop takes over."""
 
@@ -477,7 +480,8 @@ class _Driver:
                 return  # a group of its own inside a terminal: not worth the risk
             before = [r for name, r in order[:names.index(ttype)] if not disjoint(r, target)]
             guard = f"(?!{'|'.join(f'(?:{r})' for r in before)})" if before else ""
-            blanks = f"(?:{skip})*+" if skip else ""
+            # blanks: "[ \t\f]+" repeated is just "[ \t\f]*+" (a quarter faster a line)
+            blanks = (f"{skip[:-1]}*+" if _CHAR_CLASS_PLUS.fullmatch(skip) else f"(?:{skip})*+") if skip else ""
             group = f"s{k}_{i}"
             parts.append(f"{blanks}{guard}(?P<{group}>(?>{target}))")
             kind = self.lexers[stack[-1]][1][ttype] & ~self.NEWLINE
