@@ -435,8 +435,18 @@ def check_two_port(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
     ends = [Resistor("port 1 termination", tuple(circuit.signal.nodes), 1.0, None, "", circuit.signal.loc),
             Resistor("port 2 termination", tuple(circuit.output_port), 1.0, None, "",
                      circuit.output_loc or (circuit.load.loc if circuit.load else None))]
-    elements = small_signal_elements(_biased_part(circuit)) + ends
-    diags = check_branches(branches(elements, circuit.ground, view), circuit, view,
+    network = branches(small_signal_elements(_biased_part(circuit)), circuit.ground, view)
+    present = {GND} | {n for b in network for n in (*b.nodes, *b.senses)}
+    diags = []
+    for k, end in enumerate(ends, 1):
+        for n in dict.fromkeys(GND if n in circuit.ground else n for n in end.nodes):
+            if n not in present:
+                diags.append(Diagnostic("error", end.loc or Loc(circuit.file, 1, 1),
+                                        f"port {k} node {_show(n, circuit)} is not connected to any element of "
+                                        "the network (the two-port leaves out the signal and the load)"))
+    if diags:
+        return diags
+    diags = check_branches(network + branches(ends, circuit.ground, view), circuit, view,
                            context=" with both ports terminated")
     by_line = lambda d: (d.loc.line, d.loc.col) if d.loc else (0, 0)  # noqa: E731
     return (sorted([d for d in diags if d.severity == "error"], key=by_line)

@@ -298,3 +298,16 @@ def test_random_circuits_end_in_a_result_or_a_diagnostic(tmp_path_factory, text,
     with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
         code = C.main(["solve", str(path)] + (["--at", at] if at else []))
     assert_clean(code, err.getvalue(), path)
+
+
+@settings(max_examples=60, **SETTINGS)
+@given(circuits(), st.sampled_from([["bias"], ["bias", "--json"], ["twoport", "--at", "1kHz"],
+                                    ["twoport", "--at", "0", "--json"]]))
+def test_random_circuits_through_bias_and_twoport(tmp_path_factory, text, args):
+    # the DC-view checks before Newton and the two-port network checks: a clean end either way
+    path = tmp_path_factory.mktemp("c") / "rand.pw"
+    path.write_text(text, encoding="utf-8")
+    out, err = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+        code = C.main([args[0], str(path)] + args[1:])
+    assert_clean(code, err.getvalue(), path)
