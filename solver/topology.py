@@ -327,6 +327,13 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
     return diags
 
 
+def _in_line_order(diags: list[Diagnostic]) -> list[Diagnostic]:
+    """Errors, then warnings, each in line order."""
+    def key(d):
+        return (d.severity != "error", (d.loc.line, d.loc.col) if d.loc else (0, 0))
+    return sorted(diags, key=key)
+
+
 def _path(adj: dict, a: str, b: str) -> list[Branch]:
     """The branches on the (unique) path from a to b in a forest, by breadth-first search."""
     prev = {a: None}
@@ -399,8 +406,7 @@ def check(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
             (errors if d.severity == "error" else warnings).append(d)
         if errors:
             break  # the loaded configuration's errors explain the unloaded ones
-    by_line = lambda d: (d.loc.line, d.loc.col) if d.loc else (0, 0)  # noqa: E731
-    return sorted(errors, key=by_line) + sorted(warnings, key=by_line)
+    return _in_line_order(errors + warnings)
 
 
 def check_two_port(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
@@ -448,9 +454,7 @@ def check_two_port(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
         return diags
     diags = check_branches(network + branches(ends, circuit.ground, view), circuit, view,
                            context=" with both ports terminated")
-    by_line = lambda d: (d.loc.line, d.loc.col) if d.loc else (0, 0)  # noqa: E731
-    return (sorted([d for d in diags if d.severity == "error"], key=by_line)
-            + sorted([d for d in diags if d.severity != "error"], key=by_line))
+    return _in_line_order(diags)
 
 
 def device_branches(c: Circuit) -> list[Branch]:
@@ -512,8 +516,7 @@ def check_bias(circuit: Circuit, linear: list[Element]) -> list[Diagnostic]:
     bs = branches(linear, circuit.ground, "dc") + device_branches(circuit)
     diags = check_branches(bs, circuit, "dc", single=False, tied=True,
                            reactive=any(e.reactive for e in linear))
-    by_line = lambda d: (d.loc.line, d.loc.col) if d.loc else (0, 0)  # noqa: E731
-    return sorted(diags, key=by_line)
+    return _in_line_order(diags)
 
 
 def _biased_part(c: Circuit) -> Circuit:
