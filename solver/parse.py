@@ -404,7 +404,7 @@ class _Driver:
         self.shape_counts: dict[tuple, int] = {}  # (stack id, token types of a line) -> lines seen
         self.shapes: dict[int, list] = {}  # stack id -> [(regex text, program)] of its line shapes
         self.shape_match: dict[int, tuple] = {}  # stack id -> (match of all its shapes, programs)
-        self.variants: dict[tuple, object] = {}  # (rule, children present) -> callback (see _shape)
+        self.variants: dict[tuple, object] = {}  # (rule, children present) -> callback (see _program)
 
     MEMO_LIMIT = 200_000
     #: deeper stacks (deeply nested expressions) go to lark's loop: the memo keys whole stacks,
@@ -528,7 +528,8 @@ class _Driver:
 
         ``events`` are, in order, ``(rule, None)`` for a reduction and ``(group, ttype)`` for
         a token shift (``ttype`` None for a token every rule drops), on a stack of ``depth``
-        values. Steps are ``(callback, children, 0)`` and ``(None, group, ttype)``. A dropped
+        values. Steps are ``(callback, children, None)`` and ``(None, group, ttype)`` (made
+        into what :meth:`run` reads by :meth:`_encode`). A dropped
         token that a reduction of the same line takes is never pushed: that reduction gets a
         callback that expects it missing (and one that would only pass its single child on
         is left out). Dropped tokens still on the stack at the end of the line are pushed
