@@ -173,16 +173,25 @@ class _Build(Transformer):
     # --- expressions ------------------------------------------------------------
     def number(self, items):
         (tok,) = items
+        return self.number_at(tok.value, tok.line, tok.column)
+
+    # ``<rule>_at(text, line, col)``: the same rule reduced from one token given by its text
+    # and place; the line-shape replay calls it without making the token (see _Driver._encode)
+    def number_at(self, text, line, col):
+        loc = _new_loc((self.file, line, col, len(text) or 1))
         try:
-            value, d = _quantity(tok.value)
+            value, d = _quantity(text)
         except UnitError as e:
-            raise error(self._loc(tok), str(e)) from None
-        return ex.Num(value, d, _new_loc((self.file, tok.line, tok.column, len(tok.value) or 1)), tok.value)
+            raise error(loc, str(e)) from None
+        return ex.Num(value, d, loc, text)
 
     def ref(self, items):
         tok = items[0]
         return ex.Ref((tok.value,) if len(items) == 1 else tuple([t.value for t in items]),
                       _new_loc((self.file, tok.line, tok.column, len(tok.value) or 1)))
+
+    def ref_at(self, text, line, col):
+        return ex.Ref((text,), _new_loc((self.file, line, col, len(text) or 1)))
 
     def call(self, items):
         name, arg = items
@@ -510,13 +519,17 @@ class _Driver:
         * ``(callback, n, None)``: reduce the top ``n`` values;
         * ``(None, 0, None)``: push ``None`` (a dropped token);
         * ``(None, g, ttype)``: push the token of regex group ``g``;
-        * ``(callback, g, ttype)``: the same token, at once reduced alone (a number, a name).
+        * ``(callback, g, ttype)``: the same token, at once reduced alone (a name in a list);
+        * ``(callback, -g, None)``: the same, by the rule's ``_at`` form (a number, a reference),
+          given the token's text, line and column, so that no token object is made.
         """
         out = []
         for callback, arg, ttype in program:
             if callback is not None:
                 if arg == 1 and out and out[-1][0] is None and out[-1][2] is not None:
-                    out[-1] = (callback, out[-1][1], out[-1][2])
+                    at = getattr(getattr(callback, "__self__", None), f"{getattr(callback, '__name__', '')}_at",
+                                 None)
+                    out[-1] = (at, -out[-1][1], None) if at else (callback, out[-1][1], out[-1][2])
                 else:
                     out.append((callback, arg, None))
             else:
@@ -665,10 +678,13 @@ class _Driver:
                                 values.append(None)
                             elif arg == 1:
                                 values[-1] = callback([values[-1]])
-                            elif arg:
+                            elif arg > 0:
                                 children = values[-arg:]
                                 del values[-arg:]
                                 values.append(callback(children))
+                            elif arg:
+                                start, end = regs[-arg]
+                                values.append(callback(text[start:end], line, start - line_start + 1))
                             else:
                                 values.append(callback([]))
                         else:
