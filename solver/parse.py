@@ -413,7 +413,6 @@ class _Driver:
         self.shape_counts: dict[tuple, int] = {}  # (stack id, token types of a line) -> lines seen
         self.shapes: dict[int, list] = {}  # stack id -> [(regex text, program)] of its line shapes
         self.shape_match: dict[int, tuple] = {}  # stack id -> (match of all its shapes, programs)
-        self.variants: dict[tuple, object] = {}  # (rule, children present) -> callback (see _program)
 
     MEMO_LIMIT = 200_000
     #: deeper stacks (deeply nested expressions) go to lark's loop: the memo keys whole stacks,
@@ -542,13 +541,20 @@ class _Driver:
         ``events`` are, in order, ``(rule, None)`` for a reduction and ``(group, ttype)`` for
         a token shift (``ttype`` None for a token every rule drops), on a stack of ``depth``
         values. Steps are ``(callback, children, None)`` and ``(None, group, ttype)`` (made
-        into what :meth:`run` reads by :meth:`_encode`). A dropped
-        token that a reduction of the same line takes is never pushed: that reduction gets a
-        callback that expects it missing (and one that would only pass its single child on
-        is left out). Dropped tokens still on the stack at the end of the line are pushed
-        as ``None``, as the token loop does, since the token loop reduces them later.
+        into what :meth:`run` reads by :meth:`_encode`).
+
+        The program does only the work whose result a rule keeps. Every shape is worked out
+        here once, on a model of the stack whose entries are missing (a dropped token that a
+        reduction of the same line takes: never pushed), one value, or *spread* (a helper
+        rule's list, e.g. the ``("," node)*`` of a node list, taken within the line: its
+        items stay on the value stack, so no list object is made and the rule that splices
+        it takes them as they are). A reduction then gets its kept children straight off the
+        value stack, picked by position when some are left out, and one that would only
+        pass its single child on is left out. Dropped tokens still on the stack at the end
+        of the line are pushed as ``None``, as the token loop does, since the token loop
+        reduces them later.
         """
-        # which shifts a reduction of this line takes (values of earlier lines are -1)
+        # which shifts and reductions of this line a later reduction of the line takes
         ids, taken = [-1] * depth, set()
         for n, (what, _) in enumerate(events):
             if isinstance(what, int):
@@ -556,58 +562,82 @@ class _Driver:
                 if size:
                     taken.update(ids[-size:])
                     del ids[-size:]
-                ids.append(-1)
-            else:
-                ids.append(n)
-        present, program = [True] * depth, []
+            ids.append(n)
+        MISSING, ONE = 0, -1  # stack model: 0 missing, -1 one value, k > 0 a spread list of k values
+        model, program = [ONE] * depth, []
         for n, (what, ttype) in enumerate(events):
             if not isinstance(what, int):
                 if ttype is None and n in taken:
-                    present.append(False)
+                    model.append(MISSING)
                 else:
-                    present.append(True)
+                    model.append(ONE)
                     program.append((None, what, ttype))
                 continue
             size, _, callback = self.rules[what]
-            popped = tuple(present[-size:]) if size else ()
+            popped = model[-size:] if size else []
             if size:
-                del present[-size:]
-            present.append(True)
-            if callback is None:  # a unit reduction: its child is a kept symbol, never missing
+                del model[-size:]
+            if callback is None:  # a unit reduction: its child is a kept symbol, one value
+                model.append(ONE)
                 continue
-            if all(popped):
-                program.append((callback, size, None))
-                continue
-            key = (what, popped)
-            if key not in self.variants:
-                self.variants[key] = self._variant(what, popped)
-            variant = self.variants[key]
-            if variant is False:
+            step = self._reduction(what, popped, n in taken)
+            if step is None:
                 return None
-            if variant is not None:
-                program.append((variant, sum(popped), None))
+            entry, op = step
+            model.append(entry)
+            if op is not None:
+                program.append(op)
         return program
 
-    def _variant(self, rule: int, present: tuple):
-        """The callback of ``rule`` for children with the dropped tokens marked False in
-        ``present`` missing: None when it would just pass its one child on, False when
-        no such callback can be made here."""
+    def _reduction(self, rule: int, popped: list, taken: bool):
+        """``(stack entry, step or None)`` of one replayed reduction (see :meth:`_program`);
+        None when it cannot be replayed here."""
+        callback = self.rules[rule][2]
+        widths = [1 if e == -1 else e for e in popped]  # values each child occupies
+        total = sum(widths)
+        if all(e == -1 for e in popped):
+            plain = (callback, total, None)
+        else:
+            plain = None
         parts = self.rule_parts[rule]
         if parts is None:
-            return False
+            return (-1, plain) if plain else None
         inner, include, expand1 = parts
         if include is None:
-            return False  # (a rule that keeps every child has no dropped token)
-        where = {}
-        for i, here in enumerate(present):
-            if here:
-                where[i] = len(where)
-        if any(i not in where for i, _ in include):
-            return False
-        include = tuple((where[i], splice) for i, splice in include)
-        if expand1 and include == ((0, False),) and len(where) == 1:
-            return None
-        return _wrap(inner, include, expand1, size=len(where))
+            include = tuple((i, False) for i in range(len(popped)))
+        starts = [sum(widths[:i]) for i in range(len(popped))]
+        picks, runtime_splice = [], False
+        for i, splice in include:
+            e = popped[i]
+            if e == 0:
+                return None  # (a kept child is never a dropped token)
+            if splice and e == -1:
+                runtime_splice = True  # a helper list made earlier: spliced when it runs
+            elif splice != (e > 0):
+                return None  # a spread list not spliced, or a value spliced: not this grammar
+            picks += range(starts[i], starts[i] + widths[i]) if e > 0 else [starts[i]]
+        if runtime_splice:
+            if any(e > 0 for e in popped):
+                return None
+            remapped = tuple((starts[i], splice) for i, splice in include)  # (one value per child here)
+            return -1, (_wrap(inner, remapped, expand1, size=total), total, None)
+        whole = picks == list(range(total))
+        if inner is _Kids and not expand1 and taken and whole:
+            return total, None  # spread: its items stay where they are
+        if expand1 and len(picks) == 1:
+            if whole:
+                return -1, None  # passes its one child on
+            i = picks[0]
+            return -1, (lambda children, i=i: children[i], total, None)
+        if whole:
+            return -1, (inner, total, None)
+        if not picks:
+            return -1, (lambda children, f=inner: f([]), total, None)
+        if len(picks) == 1:
+            i = picks[0]
+            return -1, (lambda children, f=inner, i=i: f([children[i]]), total, None)
+        pick = operator.itemgetter(*picks)
+        return -1, (lambda children, f=inner, pick=pick: f(list(pick(children))), total, None)
 
     def _intern(self, stack: tuple) -> int:
         i = self.stack_ids.get(stack)
