@@ -309,6 +309,13 @@ class _Outcome:
 
 
 def _newton(linear, devs, ground, u_start, max_iter, gmin=0.0) -> _Outcome:
+    # a wild iterate may overflow to inf or nan: no comparison with it holds, so it never
+    # counts as converged, and the next strategy (or the failure message) takes over quietly
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        return _newton_steps(linear, devs, ground, u_start, max_iter, gmin)
+
+
+def _newton_steps(linear, devs, ground, u_start, max_iter, gmin) -> _Outcome:
     u = [np.array(x, float) for x in u_start]
     v_prev: dict[str, float] | None = None
     extra: list[Element] = []
