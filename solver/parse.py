@@ -592,16 +592,11 @@ class _Driver:
     def _reduction(self, rule: int, popped: list, taken: bool):
         """``(stack entry, step or None)`` of one replayed reduction (see :meth:`_program`);
         None when it cannot be replayed here."""
-        callback = self.rules[rule][2]
         widths = [1 if e == -1 else e for e in popped]  # values each child occupies
         total = sum(widths)
-        if all(e == -1 for e in popped):
-            plain = (callback, total, None)
-        else:
-            plain = None
         parts = self.rule_parts[rule]
-        if parts is None:
-            return (-1, plain) if plain else None
+        if parts is None:  # a callback not unwrapped: only with every child one value
+            return (-1, (self.rules[rule][2], total, None)) if all(e == -1 for e in popped) else None
         inner, include, expand1 = parts
         if include is None:
             include = tuple((i, False) for i in range(len(popped)))
