@@ -262,19 +262,11 @@ def _unwrap(callback):
     return inner, include, expand1
 
 
-def _lean(callback):
-    """The same rule callback without lark's wrapper objects (one Python call per reduction
-    instead of up to four): lark's child filter and single-child expansion are redone inline.
-
-    Only the wrappers known here are unwrapped; anything else is returned as it is.
-    """
-    parts = _unwrap(callback)
-    return callback if parts is None else _wrap(*parts)
-
-
 def _wrap(inner, include, expand1, size=None):
-    """One lean function for ``inner`` behind the child filter ``include`` (see :func:`_unwrap`);
-    ``size``, when known, is the number of children (a filter that keeps them all is dropped)."""
+    """One lean function for ``inner`` behind the child filter ``include`` (see :func:`_unwrap`):
+    the rule callback without lark's wrapper objects (one Python call per reduction instead of
+    up to four), its child filter and single-child expansion redone inline. ``size``, when
+    known, is the number of children (a filter that keeps them all is dropped)."""
     if size is not None and include == tuple((i, False) for i in range(size)):
         include = None
     if include is None and not expand1:
@@ -377,6 +369,7 @@ class _Driver:
         index = {r: i for i, r in enumerate(rules)}
         # per rule: (number of children, goto symbol, callback or None for a unit reduction)
         self.rules = []
+        self.rule_parts = []  # _unwrap of each rule's callback, for the replays (see _reduction)
         for rule in rules:
             keep_all = rule.options.keep_all_tokens
             for sym in rule.expansion:
@@ -386,8 +379,10 @@ class _Driver:
             if rule.options.expand1 and not rule.alias and len(rule.expansion) == 1 and not keep_all:
                 sym = rule.expansion[0]
                 unit = not (sym.is_term and sym.filter_out) and not (not sym.is_term and sym.name.startswith("_"))
-            self.rules.append((len(rule.expansion), str(rule.origin.name), None if unit else _lean(callbacks[rule])))
-        self.rule_parts = [_unwrap(callbacks[rule]) for rule in rules]  # for the replays (see _shape)
+            parts = _unwrap(callbacks[rule])  # None: a callback of a shape not known here, kept as it is
+            self.rule_parts.append(parts)
+            lean = None if unit else callbacks[rule] if parts is None else _wrap(*parts)
+            self.rules.append((len(rule.expansion), str(rule.origin.name), lean))
         self.dropped = frozenset(dropped - kept - set(self.term_callbacks))
         # actions with plain-str keys (lark's keys are Tokens, slow to compare): shift to state s is
         # s >= 0, reduce by rule i is -1 - i
