@@ -1,3 +1,3 @@
-from .cli import entry
+from solver.cli import entry
 
 entry()

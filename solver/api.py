@@ -18,17 +18,17 @@ import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .bulk import paused_gc
-from .diagnostics import Diagnostic, InputError, Loc, error
-from .elaborate import elaborate
-from .model import Circuit
-from .parse import parse
-from .ports import UNITS, PortError, default_frequency, port_quantities
+from solver.bulk import paused_gc
+from solver.diagnostics import Diagnostic, InputError, Loc, error
+from solver.circuit.elaborate import elaborate
+from solver.circuit.model import Circuit
+from solver.language.parse import parse
+from solver.analysis.ports import UNITS, PortError, default_frequency, port_quantities
 
 
 def read_source(path: str | Path) -> str:
     """Read a netlist file as UTF-8; a bad byte is a diagnostic, not a traceback."""
-    from .parse import MAX_FILE_BYTES
+    from solver.language.parse import MAX_FILE_BYTES
     p = Path(path)
     try:
         with p.open("rb") as f:  # never more than the limit: a huge or endless file stops here
@@ -51,7 +51,7 @@ def read_source(path: str | Path) -> str:
 
 
 def loads(text: str, file: str = "<string>") -> Circuit:
-    """Parse and elaborate netlist text into a :class:`~solver.model.Circuit`."""
+    """Parse and elaborate netlist text into a :class:`~solver.circuit.model.Circuit`."""
     with paused_gc():  # bulk building; see solver.bulk
         return elaborate(parse(text, file))
 
@@ -70,7 +70,7 @@ class Result:
     quantities: dict[str, complex]
     devices: dict[str, dict[str, float]] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
-    #: the DC operating point (solver.bias.BiasResult) when a device needed the bias solve
+    #: the DC operating point (solver.analysis.bias.BiasResult) when a device needed the bias solve
     bias: object = None
 
     def to_json(self) -> dict:
@@ -86,7 +86,7 @@ class Result:
         return out
 
 
-from .jsonout import number as _num  # noqa: E402  (one JSON rule for every command)
+from solver.output.jsonout import number as _num# noqa: E402  (one JSON rule for every command)
 
 
 DEVICE_COLUMNS = {"bjt": ("gm", "rpi", "ro", "re", "beta"), "mos": ("gm", "ro", "gmb")}
@@ -109,13 +109,13 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
     """Port quantities of a circuit at ``at`` hertz (default: the detected midband if reactive, else DC).
 
     A device given by its DC parameters (no ic/gm, id/gm) is first biased by
-    :func:`solver.bias.bias_circuit`; a transistor outside its amplifying region
+    :func:`solver.analysis.bias.bias_circuit`; a transistor outside its amplifying region
     is an InputError unless ``force`` (then the result's notes warn).
     Raises InputError for a circuit that cannot be solved (e.g. singular).
     """
     c = circuit if isinstance(circuit, Circuit) else load(circuit)
-    from . import topology  # name floating nodes, source loops and cut sets before solving
-    from .bias import ensure_bias
+    from solver.circuit import topology# name floating nodes, source loops and cut sets before solving
+    from solver.analysis.bias import ensure_bias
     with paused_gc():
         bias = ensure_bias(c, force)
         topology.require_sound(c, "dc" if at is not None and float(at) == 0 else "ac")
@@ -140,7 +140,7 @@ def analysis_frequency(c: Circuit, at: float | None = None) -> tuple[float, list
     f = default_frequency(c)
     if not c.reactive:
         return f, []
-    from .frequency import midband_frequency
+    from solver.analysis.frequency import midband_frequency
     fm = midband_frequency(c)
     if fm is None:
         return f, [f"no --at given and no flat top found: evaluated at {_eng_hz(f)}"]
@@ -149,5 +149,5 @@ def analysis_frequency(c: Circuit, at: float | None = None) -> tuple[float, list
 
 
 def _eng_hz(f: float) -> str:
-    from .report import eng
+    from solver.output.report import eng
     return "DC" if f == 0 else eng(f, "Hz")

@@ -10,8 +10,8 @@ from scipy.constants import elementary_charge, k as boltzmann
 from scipy.optimize import brentq, fsolve
 
 import solver
-from solver import expr as ex
-from solver.bias import BiasError, apply_bias, bias_circuit, solve_bias
+from solver.language import expr as ex
+from solver.analysis.bias import BiasError, apply_bias, bias_circuit, solve_bias
 from solver.diagnostics import InputError
 
 VT = boltzmann * 300.0 / elementary_charge  # CODATA via scipy.constants
@@ -360,7 +360,7 @@ def test_mosfet_without_dc_parameters_is_an_input_error():
 @pytest.mark.parametrize("path", sorted(CIRCUITS.glob("*.pw")), ids=lambda p: p.name)
 def test_every_bundled_example_converges_within_30_iterations(path):
     c = solver.load(path)
-    if not c.devices or not any(solver.devices.needs_bias(d) for d in c.devices):
+    if not c.devices or not any(solver.circuit.devices.needs_bias(d) for d in c.devices):
         pytest.skip("bias given in the netlist")
     r = solve_bias(c)
     assert r.iterations <= 30
@@ -397,7 +397,7 @@ def test_bias_form_versus_exact_derivatives_of_the_model():
     # the core's bias form (gm = I_C/V_T, ro = V_A/I_C) against the exact Jacobian of the
     # Ebers–Moll model with the Early factor: gm agrees to the reverse-injection term, the
     # exact output resistance is (V_A + V_CE)/I_C (Sedra & Smith 7th ed., 6.4, from memory)
-    from solver import dcmodels as dm
+    from solver.circuit import dcmodels as dm
     c, r = biased(FOUR.format(extra=", va=90 V"))
     q, ss = r.devices["Q1"], c.devices[0].ss
     m = dm.BJTModel(i_s=1e-15, beta_f=150.0, va=90.0, vt=VT)

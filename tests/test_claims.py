@@ -13,8 +13,8 @@ import math
 import pytest
 
 import solver
-from solver.symbolic.claims import check_claims, exact_when, identical, to_sympy
-from solver.symbolic.engine import symbol as S
+from solver.analysis.symbolic.claims import check_claims, exact_when, identical, to_sympy
+from solver.engine.symbolic.determinants import symbol as S
 
 CE = """\
 title "claims test: CE stage"

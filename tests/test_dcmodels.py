@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from scipy.constants import elementary_charge, k as boltzmann
 
-from solver import dcmodels as dm
+from solver.circuit import dcmodels as dm
 
 VT = boltzmann * 300.0 / elementary_charge  # CODATA via scipy.constants
 
@@ -132,6 +132,7 @@ def test_exponential_continues_linearly_without_overflow():
 
 
 def test_module_examples_run():
-    from solver import bias, biasreport
+    from solver.analysis import bias
+    from solver.output import biasreport
     for mod in (dm, bias, biasreport):
         assert doctest.testmod(mod).failed == 0

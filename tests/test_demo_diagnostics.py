@@ -5,7 +5,12 @@ import doctest
 
 import pytest
 
-from solver import bulk, diagnostics, expr, mna, parse, topology
+from solver import bulk
+from solver import diagnostics
+from solver.language import expr
+from solver.engine import mna
+from solver.language import parse
+from solver.circuit import topology
 
 
 @pytest.mark.parametrize("mod", [bulk, diagnostics, expr, mna, parse, topology], ids=lambda m: m.__name__)

@@ -99,7 +99,7 @@ def test_solve_leaves_out_symbolic_forms_for_large_circuits(cli, netlist):
     # the size guard of solver/symbolic/quick.py (common practice, no source): a three-stage
     # cascade has more MNA unknowns than the guard allows
     from tests.bench.bench_symbolic import cascade
-    from solver.symbolic.quick import quick_symbolic
+    from solver.analysis.symbolic.quick import quick_symbolic
     import solver
     assert quick_symbolic(solver.loads(cascade(3))) == {}
     r = cli("solve", netlist(cascade(3)))
@@ -110,7 +110,7 @@ def test_solve_leaves_out_symbolic_forms_for_large_circuits(cli, netlist):
 def test_solve_symbolic_time_guard():
     # with no time at all the guard gives up and the numeric report stands alone
     import solver
-    from solver.symbolic.quick import quick_symbolic
+    from solver.analysis.symbolic.quick import quick_symbolic
     c = solver.loads(CE)
     assert quick_symbolic(c, seconds=1e-6) == {}
     assert quick_symbolic(c)["Av"] == "-Q1.gm*(Q1.ro || RC || RL)"

@@ -12,8 +12,10 @@ from pathlib import Path
 
 import pytest
 
-from solver import api, elaborate as E, parse as P
-from solver.commands.common import write_file
+from solver import api
+from solver.circuit import elaborate as E
+from solver.language import parse as P
+from solver.cli.commands.common import write_file
 from solver.diagnostics import Diagnostic, InputError, Loc
 
 GOOD = "signal VS (in, gnd) 1 V, rs=50\nresistor R1 (in, out) 1k\nload RL (out, gnd) 1k\n"

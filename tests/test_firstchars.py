@@ -8,8 +8,8 @@ import re
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from solver import parse as P
-from solver.firstchars import disjoint, first_chars
+from solver.language import parse as P
+from solver.language.firstchars import disjoint, first_chars
 
 
 def _terminals():

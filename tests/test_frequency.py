@@ -15,10 +15,10 @@ import scipy.signal
 
 from solver import loads
 from solver.api import load, solve
-from solver.frequency import (band, frequencies, midband_frequency, poles_zeros, q_factor, response,
+from solver.analysis.frequency import (band, frequencies, midband_frequency, poles_zeros, q_factor, response,
                               scenario, solve_many)
-from solver.ports import port_quantities
-from solver.response import analyse
+from solver.analysis.ports import port_quantities
+from solver.analysis.response import analyse
 from conftest import CIRCUITS
 
 TWO_PI = 2 * math.pi
@@ -170,7 +170,7 @@ def ce():
 
 def test_ce_exact_corners_against_independent_solve(ce):
     # the corners are where |Gv| = |Gv(mid)|/sqrt(2) (definition of the -3 dB frequency); checked
-    # with solver.ports.port_quantities, which stamps and solves the circuit on its own path
+    # with solver.analysis.ports.port_quantities, which stamps and solves the circuit on its own path
     c, sm = ce
     b = sm.band
     mid = abs(port_quantities(c, b.midband_hz).quantities["Gv"])
@@ -382,7 +382,7 @@ def test_sweep_bad_input_exits_2(cli, args, message):
 
 
 def test_other_quantities_match_port_quantities():
-    # every swept quantity equals the single-frequency port solve (solver.ports, its own assembly)
+    # every swept quantity equals the single-frequency port solve (solver.analysis.ports, its own assembly)
     c = load(CIRCUITS / "hydrophone_ce_stage.pw")
     f = np.array([20.0, 1e4, 3e6])
     for q in ("Gv", "Gvo", "Av", "Avo", "Rin", "Rout", "Ai"):
@@ -424,7 +424,7 @@ def test_cs_stage_octc_and_miller_against_textbook():
     b1, b2 = cgs * rsig + cgd * r_gd, rsig * rlp * cgs * cgd
     assert np.allclose(np.sort_complex(sm.poles), np.sort_complex(np.roots([b2, b1, 1.0])), rtol=1e-9)
     assert sm.zeros == pytest.approx([gm / cgd], rel=1e-9)
-    # |Gv| at the exact f_H is midband - 3 dB (independent solve through solver.ports)
+    # |Gv| at the exact f_H is midband - 3 dB (independent solve through solver.analysis.ports)
     mid = abs(sm.band.midband)
     assert mid == pytest.approx(gm * rlp, rel=1e-6)
     assert abs(port_quantities(ckt, sm.band.f_high_hz).quantities["Gv"]) == pytest.approx(mid / math.sqrt(2),

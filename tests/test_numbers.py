@@ -5,10 +5,10 @@ import pytest
 from scipy import constants
 
 from solver import InputError, loads
-from solver.devices import thermal_voltage
-from solver.expr import Value, evaluate
-from solver.parse import parse_expression
-from solver.units import OHM, AMP, FARAD, HERTZ, A_PER_V2, PER_VOLT, parse_quantity
+from solver.circuit.devices import thermal_voltage
+from solver.language.expr import Value, evaluate
+from solver.language.parse import parse_expression
+from solver.language.units import OHM, AMP, FARAD, HERTZ, A_PER_V2, PER_VOLT, parse_quantity
 
 
 @pytest.mark.parametrize("text, value", [

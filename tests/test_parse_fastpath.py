@@ -13,7 +13,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from solver import parse as P
+from solver.language import parse as P
 from solver.diagnostics import InputError
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -20,7 +20,7 @@ from hypothesis import strategies as st
 
 from solver import api
 from solver import cli as C
-from solver import parse as P
+from solver.language import parse as P
 
 SETTINGS = dict(deadline=3000, suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
 DIAG = re.compile(r"^(?P<file>.+?):(?P<line>\d+):(?P<col>\d+): (error|warning|note): ")

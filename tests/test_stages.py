@@ -10,7 +10,7 @@ import random
 import pytest
 
 from solver import loads, solve
-from solver.devices import thermal_voltage
+from solver.circuit.devices import thermal_voltage
 
 VT = thermal_voltage(300.0)
 REL = 1e-9

@@ -16,9 +16,9 @@ import pytest
 import sympy
 
 import solver
-from solver.ports import port_quantities
-from solver.symbolic.engine import symbol as S
-from solver.symbolic.ports import symbol_values, symbolic_port_quantities
+from solver.analysis.ports import port_quantities
+from solver.engine.symbolic.determinants import symbol as S
+from solver.analysis.symbolic.ports import symbol_values, symbolic_port_quantities
 
 
 def sq(text, names=None, **kw):
@@ -193,7 +193,7 @@ def random_circuit(rnd: random.Random) -> str:
 @pytest.mark.parametrize("seed", range(8))
 def test_symbolic_equals_numeric_on_random_circuits(seed):
     # two engines cross-checked: the symbolic result evaluated at the netlist values equals
-    # scipy.sparse.linalg.splu's solve of the same stamps (solver.ports)
+    # scipy.sparse.linalg.splu's solve of the same stamps (solver.analysis.ports)
     rnd = random.Random(seed)
     c = solver.loads(random_circuit(rnd))
     f = rnd.choice([0.0, 1e3, 1e6])
@@ -234,8 +234,8 @@ def test_compact_form_equals_exact():
 
 def test_sympy_backend_matches_flint():
     pytest.importorskip("flint")
-    from solver.symbolic.engine import LaplaceDeterminants
-    from solver.symbolic.ring import Ring
+    from solver.engine.symbolic.determinants import LaplaceDeterminants
+    from solver.engine.symbolic.ring import Ring
     # the determinant of a random sparse polynomial matrix, both backends and sympy's Matrix.det
     rnd = random.Random(3)
     names = ["a", "b", "c"]
@@ -259,9 +259,9 @@ def test_sympy_backend_matches_flint():
 
 # --- printing --------------------------------------------------------------------------------
 def test_parallel_recognised_and_round_trips():
-    from solver.parse import parse_expression
-    from solver.symbolic.claims import to_sympy
-    from solver.symbolic.derive import derive
+    from solver.language.parse import parse_expression
+    from solver.analysis.symbolic.claims import to_sympy
+    from solver.analysis.symbolic.derive import derive
     c = solver.loads("signal VS (b, gnd) 1 mV\nnpn Q1 (c, b, gnd) gm=40m, rpi=2k5, ro=100k\n"
                      "resistor RC (c, gnd) 5k\nload RL (c, gnd) 10k\n")
     d = {x.quantity: x for x in derive(c, ["Av", "Rout", "Rin"])}
@@ -275,7 +275,7 @@ def test_parallel_recognised_and_round_trips():
 
 
 def test_sympy_string_parses_back():
-    from solver.symbolic.derive import derive
+    from solver.analysis.symbolic.derive import derive
     c = solver.loads("signal VS (b, gnd) 1 mV, rs=1k\nnpn Q1 (c, b, gnd) gm=40m, rpi=2k5, ro=100k, cmu=1p\n"
                      "resistor RC (c, gnd) 5k\nload RL (c, gnd) 10k\n")
     exact = symbolic_port_quantities(c)
@@ -292,7 +292,7 @@ def test_latex_renders_with_mathtext(quantity):
     matplotlib = pytest.importorskip("matplotlib")
     matplotlib.use("Agg")
     from matplotlib import mathtext
-    from solver.symbolic.derive import derive
+    from solver.analysis.symbolic.derive import derive
     c = solver.loads("signal VS (b, gnd) 1 mV, rs=1k\nnpn Q1 (c, b, gnd) gm=40m, rpi=2k5, ro=100k, cmu=1p\n"
                      "resistor RC (c, gnd) 5k\ncapacitor CL (c, gnd) 1n\nload RL (c, gnd) 10k\n")
     (x,) = derive(c, [quantity])
@@ -302,7 +302,7 @@ def test_latex_renders_with_mathtext(quantity):
 
 
 def test_latex_names():
-    from solver.symbolic.printing import latex_name
+    from solver.analysis.symbolic.printing import latex_name
     assert latex_name("Q1.gm") == r"g_{m,\mathrm{Q1}}"
     assert latex_name("RC") == "R_{C}"
     assert latex_name("S1.RC") == r"R_{C,\mathrm{S1}}"
@@ -313,7 +313,7 @@ def test_latex_names():
 @pytest.mark.parametrize("to", ["oo", "0"])
 def test_rational_limit_matches_sympy_limit(to):
     # reference: sympy.limit (Gruntz algorithm) on the same rational functions
-    from solver.symbolic.claims import rational_limit
+    from solver.analysis.symbolic.claims import rational_limit
     q = sq("signal VS (b, gnd) 1 mV, rs=1k\nnpn Q1 (c, b, e) gm=40m, rpi=2k5, ro=100k\n"
            "resistor RE (e, gnd) 100\nresistor RC (c, gnd) 5k\nload RL (c, gnd) 10k\n")
     for name in ("Av", "Rin", "Rout"):
@@ -327,8 +327,8 @@ def test_rational_limit_matches_sympy_limit(to):
 @pytest.mark.parametrize("tol", [0.01, 0.05, 0.2])
 def test_dominant_terms_error_bound(tol):
     from tests.bench.bench_symbolic import cascade
-    from solver.symbolic.claims import prune
-    from solver.symbolic.engine import evaluate_dict
+    from solver.analysis.symbolic.claims import prune
+    from solver.engine.symbolic.determinants import evaluate_dict
     c = solver.loads(cascade(2))
     values = symbol_values(c)
     f = 1e5
@@ -337,7 +337,7 @@ def test_dominant_terms_error_bound(tol):
     p = prune(q.num, q.den, q.gens, values, tol, s)
     assert p.dropped > 0
     assert p.coefficient_error <= tol + 1e-12
-    # the reported error is the real one: compare with the numeric engine (solver.ports)
+    # the reported error is the real one: compare with the numeric engine (solver.analysis.ports)
     ref = port_quantities(c, f).quantities["Gv"]
     pt = [s] + [values[g] for g in q.gens[1:]]
     pruned_value = evaluate_dict(p.num, pt) / evaluate_dict(p.den, pt)
@@ -348,7 +348,7 @@ def test_dominant_terms_error_bound(tol):
 
 def test_pure_python_backend_gives_the_same_quantities(monkeypatch):
     # the sympy PolyRing fallback (no python-flint) must give the same exact results
-    import solver.symbolic.ring as ring
+    import solver.engine.symbolic.ring as ring
     net = ("signal VS (b, gnd) 1 mV, rs=1k\nnpn Q1 (c, b, e) gm=40m, rpi=2k5, ro=100k, cmu=1p\n"
            "resistor RE (e, gnd) 100\nresistor RC (c, gnd) 5k\nload RL (c, gnd) 10k\n")
     monkeypatch.setattr(ring, "DEFAULT_BACKEND", "sympy")
@@ -362,9 +362,9 @@ def test_pure_python_backend_gives_the_same_quantities(monkeypatch):
 def test_parallel_with_a_series_branch_round_trips():
     # R1 || (R2 + R3): the resistance seen into a divider (series/parallel reduction, any
     # circuits text, e.g. Sedra & Smith 7th ed., chapter 1, from memory)
-    from solver.parse import parse_expression
-    from solver.symbolic.claims import to_sympy
-    from solver.symbolic.derive import derive
+    from solver.language.parse import parse_expression
+    from solver.analysis.symbolic.claims import to_sympy
+    from solver.analysis.symbolic.derive import derive
     c = solver.loads("signal VS (a, gnd) 1 mV\nresistor R1 (a, gnd) 10k\nresistor R2 (a, b) 1k\n"
                      "resistor R3 (b, gnd) 5k\noutput (b, gnd)\n")
     (d,) = derive(c, ["Rin"])
@@ -376,7 +376,7 @@ def test_parallel_with_a_series_branch_round_trips():
 def test_block_instances_give_prefixed_symbols():
     # two cascaded CE stages: Avo = gm1*(ro1 || RC1 || rpi2) * gm2*(ro2 || RC2)
     # (Sedra & Smith 7th ed., section 7.3.3 applied per stage, from memory)
-    from solver.symbolic.derive import derive
+    from solver.analysis.symbolic.derive import derive
     c = solver.loads("block stage (i, o) rc=5k\n  npn Q (o, i, gnd) gm=40m, rpi=2k5, ro=100k\n"
                      "  resistor RC (o, gnd) rc\nend\nsignal VS (a, gnd) 1 mV\nuse stage S1 (a, b)\n"
                      "use stage S2 (b, c) rc=10k\noutput (c, gnd)\n")
@@ -390,9 +390,9 @@ def test_block_instances_give_prefixed_symbols():
 
 def test_follower_output_resistance_prints_as_textbook():
     # Sedra & Smith 7th ed., section 7.3.6: Rout = RE || (rpi + rs)/(beta + 1) (from memory)
-    from solver.parse import parse_expression
-    from solver.symbolic.claims import to_sympy
-    from solver.symbolic.derive import derive
+    from solver.language.parse import parse_expression
+    from solver.analysis.symbolic.claims import to_sympy
+    from solver.analysis.symbolic.derive import derive
     c = solver.loads("signal VS (b, gnd) 1 mV, rs=1k\nnpn Q1 (gnd, b, e) gm=40m, rpi=2k5\n"
                      "resistor RE (e, gnd) 2k\nload RL (e, gnd) 1k\n")
     (d,) = derive(c, ["Rout"])
@@ -405,9 +405,9 @@ def test_divider_form_and_every_quantity_round_trips():
     # (Sedra & Smith 7th ed., section 7.3.3, from memory); every printed quantity parses back
     # with our own parser into the same rational function
     from conftest import CIRCUITS
-    from solver.parse import parse_expression
-    from solver.symbolic.claims import to_sympy
-    from solver.symbolic.derive import derive
+    from solver.language.parse import parse_expression
+    from solver.analysis.symbolic.claims import to_sympy
+    from solver.analysis.symbolic.derive import derive
     c = solver.load(CIRCUITS / "hydrophone_preamp.pw")
     exact = symbolic_port_quantities(c)
     shown = {d.quantity: d.plain for d in derive(c, list(exact))}

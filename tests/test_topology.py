@@ -13,9 +13,9 @@ import pytest
 
 from solver import api
 from solver.diagnostics import InputError
-from solver.elements import CurrentSource, Resistor, VCCS
-from solver import mna
-from solver.mna import COND_WARN, assemble, condition_estimate, diagnose
+from solver.circuit.elements import CurrentSource, Resistor, VCCS
+from solver.engine import mna
+from solver.engine.mna import COND_WARN, assemble, condition_estimate, diagnose
 
 
 def errors_of(text: str, at=None) -> list[str]:
@@ -110,7 +110,7 @@ def test_structural_rank_by_matching():
 
 def test_condition_estimate_agrees_with_numpy():
     # reference: numpy.linalg.cond (1-norm) of the same equilibrated dense matrix
-    from solver.mna import _equilibrate
+    from solver.engine.mna import _equilibrate
     rng = np.random.default_rng(1)
     els = [Resistor(f"R{i}", (f"n{i}", f"n{i + 1}" if i < 7 else "0"), float(rng.uniform(10, 1e4)))
            for i in range(8)] + [Resistor("Rg", ("n0", "0"), 50.0)]
@@ -164,7 +164,7 @@ def test_node_only_sensed_by_a_control_input():
 def test_numeric_path_is_sparse_and_linear_in_size():
     # a ladder's nodal matrix is tridiagonal: about 3 entries per node (sparse storage, CSC)
     import scipy.sparse as sp
-    from solver.ports import signal_elements, small_signal_elements
+    from solver.analysis.ports import signal_elements, small_signal_elements
     sections = 3000
     text = "signal VS (n0, gnd) 1 V, rs=50\n" + "".join(
         f"resistor R{i} (n{i}, n{i + 1}) 1k\ncapacitor C{i} (n{i + 1}, gnd) 1 nF\n" for i in range(sections))

@@ -2,7 +2,7 @@
 
 Run: python tests/bench/bench_bias.py
 Builds N four-resistor CE stages on one supply, each capacitor-coupled to the next,
-and times solver.bias.solve_bias (Newton iterations re-stamp the whole DC view).
+and times solver.analysis.bias.solve_bias (Newton iterations re-stamp the whole DC view).
 """
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
 import solver  # noqa: E402
-from solver.bias import solve_bias  # noqa: E402
+from solver.analysis.bias import solve_bias# noqa: E402
 
 
 def netlist(n: int) -> str:

@@ -2,7 +2,7 @@
 
 Run: ``python tests/bench/bench_parse.py [LINES]`` from the project root. Prints one
 row per netlist kind: lines, best-of-5 seconds, lines/s, for the fast LALR loop
-(the default path of ``solver.parse.parse``) and for lark's own loop on the same
+(the default path of ``solver.language.parse.parse``) and for lark's own loop on the same
 grammar and transformer, so the gain of the fast loop is visible.
 """
 from __future__ import annotations
@@ -17,7 +17,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from netlists import flat_mixed, rc_ladder, transistor_chain  # noqa: E402
 
-from solver import parse as P  # noqa: E402
+from solver.language import parse as P# noqa: E402
 
 
 def best_of(fn, repeat=5):

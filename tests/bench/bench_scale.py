@@ -28,10 +28,10 @@ def measure(kind: str, size: int) -> dict:
     sys.path[:0] = [str(ROOT), str(HERE)]
     from netlists import rc_ladder, transistor_chain
 
-    from solver import topology
-    from solver.elaborate import elaborate
-    from solver.parse import parse
-    from solver.ports import port_quantities
+    from solver.circuit import topology
+    from solver.circuit.elaborate import elaborate
+    from solver.language.parse import parse
+    from solver.analysis.ports import port_quantities
     text = rc_ladder(size // 2) if kind == "ladder" else transistor_chain(size)
     gc.collect()
     gc.disable()  # as solver.api.loads and solve do (solver.bulk)

@@ -112,7 +112,7 @@ def main() -> None:
         sys.path.insert(0, str(ROOT))
         import numpy as np
         from solver.api import load
-        from solver.frequency import frequencies, scenario, solve_many
+        from solver.analysis.frequency import frequencies, scenario, solve_many
         sc = scenario(load(nested), "Gv")
         s = 2j * np.pi * frequencies(F_FROM, F_TO, points=POINTS)
         for banded in (True, False):

@@ -14,8 +14,8 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
-from solver import loads  # noqa: E402
-from solver.frequency import frequencies, response, scenario  # noqa: E402
+from solver import loads# noqa: E402
+from solver.analysis.frequency import frequencies, response, scenario# noqa: E402
 
 # an invented two-stage audio filter model: ten nodes of R and C, one VCVS buffer
 NETLIST = """\

@@ -34,11 +34,11 @@ def naive(c):
     did not finish N=2 within 40 s here).
     """
     import sympy
-    from solver.ports import load_element, signal_elements, small_signal_elements
-    from solver.symbolic.ports import choose_symbols
-    from solver.symbolic.ring import Ring
-    from solver.symbolic.stamper import SymbolicStamper, variable_names
-    from solver.symbolic.engine import symbol
+    from solver.analysis.ports import load_element, signal_elements, small_signal_elements
+    from solver.analysis.symbolic.ports import choose_symbols
+    from solver.engine.symbolic.ring import Ring
+    from solver.engine.symbolic.stamper import SymbolicStamper, variable_names
+    from solver.engine.symbolic.determinants import symbol
     kept = choose_symbols(c)
     ring = Ring(variable_names(kept), "sympy")
     els = small_signal_elements(c) + signal_elements(c, 1.0) + [load_element(c)]
@@ -82,9 +82,9 @@ def naive_timed(n: int, limit: float):
 def compact_check(c, expr, f=1e6) -> float:
     """Relative difference of the compact form from the numeric engine at f (a sanity check)."""
     import math
-    from solver.ports import port_quantities
-    from solver.symbolic.engine import symbol
-    from solver.symbolic.ports import symbol_values
+    from solver.analysis.ports import port_quantities
+    from solver.engine.symbolic.determinants import symbol
+    from solver.analysis.symbolic.ports import symbol_values
     sub = {symbol(k): v for k, v in symbol_values(c).items()}
     sub[symbol("s")] = 2j * math.pi * f
     z = complex(expr.xreplace(sub).evalf())
@@ -93,7 +93,7 @@ def compact_check(c, expr, f=1e6) -> float:
 
 
 def ours(c, compact=False):
-    from solver.symbolic.ports import symbolic_port_quantities
+    from solver.analysis.symbolic.ports import symbolic_port_quantities
     t0 = time.perf_counter()
     r = symbolic_port_quantities(c, which=["Gv"], compact=compact)
     dt = time.perf_counter() - t0
@@ -113,7 +113,7 @@ def main() -> None:
     ap.add_argument("--compact-max", type=int, default=8)
     a = ap.parse_args()
     import solver
-    from solver.symbolic.ring import have_flint
+    from solver.engine.symbolic.ring import have_flint
     print(f"polynomial backend: {'python-flint' if have_flint() else 'sympy PolyRing'}")
     import sympy  # noqa: F401  (import time is not compute time)
     for n in range(1, max(a.exact_max, a.compact_max) + 1):

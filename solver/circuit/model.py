@@ -1,0 +1,125 @@
+"""The circuit model: what a netlist means, after blocks are flattened and values evaluated.
+
+Plain dataclasses. Passive and controlled elements are already primitives
+(:mod:`solver.circuit.elements`); transistors stay :class:`Device` objects until
+:mod:`solver.circuit.devices` expands them, so that the bias solve and the reports see
+them whole. Supplies, the signal and the load are kept apart because every
+analysis treats them differently (small-signal: a voltage supply is a short).
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+from solver.diagnostics import Diagnostic, Loc
+from solver.circuit.elements import Element
+from solver.language.expr import Expr
+
+
+@dataclass
+class Device:
+    """A transistor (npn, pnp, nmos, pmos) or diode with its evaluated parameters."""
+
+    kind: str
+    name: str
+    nodes: dict[str, str]  # terminal letter -> node: C B E | D G S B | A K
+    params: dict[str, float]
+    model: str = "hybrid-pi"  # BJT only: "hybrid-pi" | "t"
+    loc: Loc | None = None
+    #: small-signal parameters (gm, rpi, ro, ...), filled by solver.circuit.devices
+    ss: dict[str, float] = field(default_factory=dict)
+    #: set by the bias solve: operating point values (ic, vbe, region, ...)
+    op: dict = field(default_factory=dict)
+
+    @property
+    def is_bjt(self) -> bool:
+        return self.kind in ("npn", "pnp")
+
+    @property
+    def is_mos(self) -> bool:
+        return self.kind in ("nmos", "pmos")
+
+
+@dataclass
+class Supply:
+    name: str
+    nodes: tuple[str, str]
+    kind: str  # "V" | "A"
+    value: float
+    loc: Loc | None = None
+    #: the small-signal element: a 0 V source (a short) for a voltage supply, None (open) for a current one
+    ss_element: Element | None = None
+
+
+@dataclass
+class Signal:
+    """The signal source and the input port (p, n). Voltage: Thevenin; current: Norton."""
+
+    name: str
+    nodes: tuple[str, str]
+    kind: str  # "V" | "A"
+    value: float
+    rs: float  # series (V) or parallel (A) resistance; 0 or inf when absent
+    loc: Loc | None = None
+
+    @property
+    def has_rs(self) -> bool:
+        return (self.kind == "V" and self.rs != 0) or (self.kind == "A" and math.isfinite(self.rs))
+
+
+@dataclass
+class Load:
+    name: str
+    nodes: tuple[str, str]
+    value: float
+    loc: Loc | None = None
+
+
+@dataclass
+class ClaimSpec:
+    quantity: str
+    kind: str  # "exact" | "approx"
+    expr: Expr
+    tolerance: float | None
+    loc: Loc
+    line: int
+
+
+@dataclass
+class Circuit:
+    title: str
+    file: str
+    source: str
+    elements: list[Element] = field(default_factory=list)
+    devices: list[Device] = field(default_factory=list)
+    supplies: list[Supply] = field(default_factory=list)
+    signal: Signal | None = None
+    load: Load | None = None
+    output: tuple[str, str] | None = None
+    output_loc: Loc | None = None
+    ground: set[str] = field(default_factory=lambda: {"gnd", "0"})
+    claims: list[ClaimSpec] = field(default_factory=list)
+    #: symbol name -> numeric value, for the symbolic engine and claims
+    values: dict[str, float] = field(default_factory=dict)
+    warnings: list[Diagnostic] = field(default_factory=list)
+    #: name resolution for claims and derived expressions (see solver.circuit.elaborate.Resolver)
+    resolver: object = None
+    #: the DC operating point once solved (solver.analysis.bias.BiasResult), reused by later analyses
+    bias: object = None
+
+    @property
+    def output_port(self) -> tuple[str, str]:
+        if self.output is not None:
+            return self.output
+        return self.load.nodes
+
+    @property
+    def reactive(self) -> bool:
+        from solver.circuit.devices import expand
+        if any(e.reactive for e in self.elements):
+            return True
+        return any(e.reactive for d in self.devices for e in expand(d))
+
+    @property
+    def transistors(self) -> list[Device]:
+        return [d for d in self.devices if d.kind != "diode"]

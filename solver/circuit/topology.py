@@ -1,0 +1,713 @@
+"""Topology checks before any solve: mistakes that make the MNA system singular, named in netlist terms.
+
+Modified nodal analysis fails in a few structural ways, each with a plain
+graph reading (see the references):
+
+* a group of nodes with no path to the reference node (floating): nothing
+  fixes their potential;
+* a group connected to the rest only through current-defined branches (current
+  supplies, a current signal, vccs/cccs outputs, a transistor's gm): a *cut set*
+  of current sources, so Kirchhoff's current law on the cut cannot hold in
+  general and the potentials are undefined;
+* a *loop* of voltage-defined branches (voltage supplies, which are shorts in
+  the small-signal view, the voltage signal, vcvs/ccvs outputs, op-amp outputs,
+  inductors at DC): Kirchhoff's voltage law fixes the same voltage twice;
+* a node with a single connection (a warning: it carries no current, and is
+  usually a misspelt node name).
+
+Two views: the AC view (any frequency above zero: capacitors and inductors are
+impedances) and the DC view (capacitors open, inductors short), used by a solve
+at 0 Hz and by the bias solve.
+
+Policy for values (checked in :mod:`solver.circuit.elaborate`): a zero R or L is an
+error (it is a short: join the nodes), a zero C is an error (an open: leave it
+out), a zero load is an error; a negative R, C, L or load is allowed (active
+models use them) with a warning.
+
+References
+----------
+C.-W. Ho, A. E. Ruehli, P. A. Brennan, "The modified nodal approach to network
+analysis", IEEE Trans. Circuits and Systems 22(6), 1975 (from memory).
+L. O. Chua, P.-M. Lin, *Computer-Aided Analysis of Electronic Circuits*,
+Prentice-Hall 1975, chapter on the topological conditions for a unique
+solution: no loops of voltage sources, no cut sets of current sources (from memory).
+"""
+from __future__ import annotations
+
+import difflib
+from typing import NamedTuple
+
+from solver.diagnostics import MAX_REPORTED, Diagnostic, Loc
+from solver.circuit.elements import Element, Nullor
+from solver.circuit.model import Circuit
+
+GND = "\0gnd"  # every reference-node alias maps here
+MAX_LISTED = 8
+
+
+class Branch(NamedTuple):
+    """One element as the graph checks see it.
+
+    name   -- the name shown to the user (``R1``, ``Q1.gm``, ``VS``)
+    kind   -- "r" (an impedance), "v" (voltage-defined), "i" (current-defined)
+    nodes  -- the two nodes the branch joins
+    senses -- control terminals: they read a voltage and draw no current
+    """
+
+    name: str
+    kind: str
+    nodes: tuple[str, str]
+    loc: Loc | None
+    senses: tuple[str, ...] = ()
+    origin: str = ""  # the netlist element or device it came from
+    #: an ideal op-amp's output (a norator to the reference); its two senses are the
+    #: inputs, a nullator: v+ = v- with no current
+    nullor: bool = False
+
+
+def branches(elements: list[Element], ground: set[str], view: str = "ac") -> list[Branch]:
+    """The graph branches of primitive elements in the AC or the DC view.
+
+    Examples
+    --------
+    >>> from solver.circuit.elements import Capacitor, Resistor
+    >>> [b.kind for b in branches([Resistor("R1", ("a", "0"), 1.0), Capacitor("C1", ("a", "0"), 1.0)], {"0"})]
+    ['r', 'r']
+    >>> [b.name for b in branches([Capacitor("C1", ("a", "0"), 1.0)], {"0"}, view="dc")]
+    []
+    """
+    canon = (lambda n: GND if n in ground else n)  # noqa: E731
+    out = []
+    for e in elements:
+        kind = e.branch_kind
+        if e.reactive:
+            if view == "dc":
+                if kind == "r":
+                    continue  # a capacitor is open at DC
+            else:
+                kind = "r"  # capacitors and inductors are impedances at any frequency above zero
+        if isinstance(e, Nullor):
+            out_node, inp, inn = e.nodes
+            out.append(Branch(e.name, "v", (canon(out_node), GND), e.loc, (canon(inp), canon(inn)), e.origin,
+                              nullor=True))
+            continue
+        senses = tuple(canon(n) for n in getattr(e, "ctrl", ()) or ())
+        out.append(Branch(e.name, kind, (canon(e.nodes[0]), canon(e.nodes[1])), e.loc, senses, e.origin))
+    return out
+
+
+class _Sets:
+    """Union-find (disjoint sets) with path halving."""
+
+    def __init__(self):
+        self.parent: dict[str, str] = {}
+
+    def find(self, x: str) -> str:
+        p = self.parent
+        p.setdefault(x, x)
+        while p[x] != x:
+            p[x] = p[p[x]]
+            x = p[x]
+        return x
+
+    def union(self, a: str, b: str) -> bool:
+        ra, rb = self.find(a), self.find(b)
+        if ra == rb:
+            return False
+        self.parent[ra] = rb
+        return True
+
+
+def _show(node: str, circuit: Circuit) -> str:
+    if node == GND:
+        return "the reference node"
+    if node == "{sig}":
+        return f"the inner node of signal '{circuit.signal.name}'" if circuit.signal else "the signal's inner node"
+    return f"'{node}'"
+
+
+def _names(items, key=str) -> str:
+    items = list(items)
+    shown = ", ".join(key(x) for x in items[:MAX_LISTED])
+    return shown + (f" and {len(items) - MAX_LISTED} more" if len(items) > MAX_LISTED else "")
+
+
+def _label(b: Branch) -> str:
+    return f"{b.name} (line {b.loc.line})" if b.loc else b.name
+
+
+def _opamp(b: Branch) -> str:
+    return f"op-amp {b.origin or b.name}" + (f" (line {b.loc.line})" if b.loc else "")
+
+
+def _first_loc(bs, fallback: Loc) -> Loc:
+    locs = [b.loc for b in bs if b.loc is not None]
+    return min(locs, key=lambda l: (l.line, l.col)) if locs else fallback
+
+
+def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_nodes=(),
+                   context: str = "", single: bool = True, tied: bool = False,
+                   reactive: bool | None = None) -> list[Diagnostic]:
+    """All graph checks on one set of branches; errors and warnings in netlist terms.
+
+    Linear in the number of branches (union-find, one pass per check), so it
+    costs about as much as stamping the circuit.
+
+    Parameters
+    ----------
+    bs : list of Branch
+    circuit : Circuit
+        For names and the fallback location.
+    view : "ac" or "dc"
+        Only changes the wording (the branches already reflect the view).
+    port_nodes : iterable of str
+        Nodes that a port observes: they count as one more connection and must exist.
+    context : str
+        Appended to each message (e.g. " without the load").
+    single : bool
+        Also warn about nodes with a single connection.
+    tied : bool
+        Leave out the groups with no path to the reference that no control input
+        reads (the bias solve ties those to the reference through a high resistance,
+        with its own warning): their voltage does not change any other result.
+    reactive : bool, optional
+        Whether the circuit has capacitors or inductors (the DC wording says what the
+        view left out); by default ``circuit.reactive``.
+
+    Returns
+    -------
+    list of Diagnostic
+    """
+    where = Loc(circuit.file, 1, 1)
+    if view == "dc" and (circuit.reactive if reactive is None else reactive):
+        dc = " in the DC view (capacitors open, inductors shorted)"
+    else:
+        dc = ""
+    diags: list[Diagnostic] = []
+    ground = circuit.ground
+    ports = [GND if n in ground else n for n in port_nodes]
+
+    # 1. a node that only a port observes does not exist in the system
+    present = {GND}
+    for b in bs:
+        present.update(b.nodes)
+        present.update(b.senses)
+    for n in dict.fromkeys(ports):
+        if n not in present:
+            diags.append(Diagnostic("error", circuit.output_loc or (circuit.load.loc if circuit.load else where),
+                                    f"port node {_show(n, circuit)} is not connected to any element{context}{dc}"))
+    if diags:
+        return diags
+
+    # 2. loops of voltage-defined branches
+    vsets, vadj = _Sets(), {}
+    for b in bs:
+        if b.kind != "v":
+            continue
+        a, c = b.nodes
+        if a == c or not vsets.union(a, c):
+            loop = [b] if a == c else _path(vadj, a, c) + [b]
+            diags.append(Diagnostic(
+                "error", b.loc or where,
+                f"a loop of voltage-defined branches{dc}: {_names(loop, _label)}; Kirchhoff's voltage law "
+                f"fixes the same voltage twice (add a resistance in the loop or remove one source){context}"))
+            continue
+        vadj.setdefault(a, []).append((c, b))
+        vadj.setdefault(c, []).append((a, b))
+
+    # 2b. an ideal op-amp's input pair (a nullator: v+ = v-) closing a loop of voltage-defined
+    # branches (op-amp outputs, norators, left out: their voltage is free) or of other input
+    # pairs: the input condition then repeats what the loop fixes, and nothing sets the output
+    nsets, nadj = _Sets(), {}
+    for b in bs:
+        if b.kind == "v" and not b.nullor and b.nodes[0] != b.nodes[1] and nsets.union(*b.nodes):
+            a, c = b.nodes
+            nadj.setdefault(a, []).append((c, b))
+            nadj.setdefault(c, []).append((a, b))
+    for b in bs:
+        if not b.nullor:
+            continue
+        a, c = b.senses
+        name = _opamp(b)
+        if a == c:
+            diags.append(Diagnostic(
+                "error", b.loc or where,
+                f"{name} has both inputs on {_show(a, circuit)}{dc}: its input condition v+ = v- says nothing, "
+                f"so nothing sets its output (connect the inputs to different nodes){context}"))
+            continue
+        if not nsets.union(a, c):
+            loop = _path(nadj, a, c)
+            diags.append(Diagnostic(
+                "error", b.loc or where,
+                f"the inputs of {name}, {_show(a, circuit)} and {_show(c, circuit)}, are already tied by "
+                f"{_names(loop, lambda x: _label(x) if not x.nullor else 'the inputs of ' + _opamp(x))}"
+                f"{dc}: its input condition v+ = v- repeats what they fix, so nothing sets its output "
+                f"(an input at a supply rail or the signal is an AC short; feed the output back instead){context}"))
+            continue
+        nadj.setdefault(a, []).append((c, b))
+        nadj.setdefault(c, []).append((a, b))
+
+    # 3. groups with no path to the reference, through impedances and voltage-defined branches
+    sets = _Sets()
+    find = sets.find
+    for n in present:
+        find(n)
+    for b in bs:
+        if b.kind != "i":
+            sets.union(*b.nodes)
+    root = find(GND)
+    members: dict[str, list[str]] = {}
+    for n in present:
+        r = find(n)
+        if r != root:
+            members.setdefault(r, []).append(n)
+    if members:
+        inner: dict[str, list[Branch]] = {}
+        cut: dict[str, list[Branch]] = {}
+        sensed: dict[str, list[Branch]] = {}
+        for b in bs:
+            ra, rb = find(b.nodes[0]), find(b.nodes[1])
+            if b.kind != "i":
+                if ra != root:
+                    inner.setdefault(ra, []).append(b)
+            elif ra != rb:
+                for r in {ra, rb} - {root}:
+                    cut.setdefault(r, []).append(b)
+            for r in {find(n) for n in b.senses} - {root, ra, rb}:
+                sensed.setdefault(r, []).append(b)
+        for r, nodes in list(members.items())[:MAX_REPORTED]:
+            shown = _names(sorted(nodes), lambda n: _show(n, circuit))
+            one = len(nodes) == 1
+            what = "node" if one else "nodes"
+            if r in cut:
+                c_ = cut[r]
+                msg = (f"{what} {shown} connect{'s' if one else ''} to the rest of the circuit only through "
+                       f"current-defined branch{'es' if len(c_) > 1 else ''} {_names(c_, _label)}{dc}: a cut set "
+                       f"of current sources leaves {'its' if one else 'their'} voltage undefined (add a "
+                       f"resistance to the reference, e.g. a transistor's ro or a bias resistor){context}")
+                loc = _first_loc(c_, where)
+            elif r in inner:
+                if tied and r not in sensed:
+                    continue
+                msg = (f"{what} {shown} {'has' if one else 'have'} no path to the reference node{dc}{context}"
+                       f" (joined by {_names(inner[r], _label)})")
+                if tied:
+                    msg += (f"; {_names(sensed[r], _label)} read{'s' if len(sensed[r]) == 1 else ''}"
+                            f" {'its' if one else 'their'} voltage, so the bias is undefined (add a bias"
+                            " resistor to a fixed voltage)")
+                loc = _first_loc(inner[r], where)
+            else:
+                s_ = sensed.get(r, [])
+                msg = (f"{what} {shown} {'is' if one else 'are'} only sensed by {_names(s_, _label)}"
+                       f" (a control input draws no current): nothing sets {'its' if one else 'their'}"
+                       f" voltage{dc}{context}")
+                loc = _first_loc(s_, where)
+            diags.append(Diagnostic("error", loc, msg))
+
+    # 4. nodes with a single connection (warnings), with a spelling hint
+    if single:
+        count: dict[str, int] = {}
+        first: dict[str, Branch] = {}
+        for b in bs:
+            for n in {*b.nodes, *b.senses}:
+                count[n] = count.get(n, 0) + 1
+                first.setdefault(n, b)
+        for n in ports:
+            count[n] = count.get(n, 0) + 1
+        lonely = [n for n, k in count.items() if k == 1 and n != GND and not n.startswith("{") and ":" not in n]
+        busy = [n for n, k in count.items() if k >= 2 and n != GND] if len(lonely) <= MAX_REPORTED else []
+        at = _node_locs(circuit) if lonely else {}
+        for n in lonely[:MAX_REPORTED]:
+            b = first[n]
+            hint = difflib.get_close_matches(n, busy, n=1) if busy else []
+            diags.append(Diagnostic(
+                "warning", at.get((b.origin, n)) or b.loc or where,
+                f"node {_show(n, circuit)} has a single connection ({_label(b)}): no current flows "
+                f"through it{'; did you mean ' + repr(hint[0]) + '?' if hint else ''}"))
+    return diags
+
+
+def _in_line_order(diags: list[Diagnostic]) -> list[Diagnostic]:
+    """Errors, then warnings, each in line order."""
+    def key(d):
+        return (d.severity != "error", (d.loc.line, d.loc.col) if d.loc else (0, 0))
+    return sorted(diags, key=key)
+
+
+def _path(adj: dict, a: str, b: str) -> list[Branch]:
+    """The branches on the (unique) path from a to b in a forest, by breadth-first search."""
+    prev = {a: None}
+    todo = [a]
+    while todo:
+        nxt = []
+        for n in todo:
+            for m, br in adj.get(n, ()):
+                if m not in prev:
+                    prev[m] = (n, br)
+                    nxt.append(m)
+        todo = nxt
+        if b in prev:
+            break
+    out = []
+    while prev.get(b):
+        b, br = prev[b]
+        out.append(br)
+    return out[::-1]
+
+
+def check(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
+    """Topology diagnostics of a circuit in the configurations the port analysis solves.
+
+    The loaded drive (signal and load) and, with a load, the unloaded drive are
+    checked; messages of the second say "without the load". Devices whose
+    operating point is not known yet are left out (the bias solve checks them).
+
+    Parameters
+    ----------
+    circuit : Circuit
+    view : "ac" or "dc"
+
+    Returns
+    -------
+    list of Diagnostic
+        Errors first, then warnings, without repeats.
+
+    Examples
+    --------
+    >>> from solver.api import loads
+    >>> c = loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nresistor R2 (c, d) 1k\\nload RL (a, gnd) 1k\\n")
+    >>> [d.message.split(":")[0] for d in check(c) if d.severity == "error"]
+    ["nodes 'c', 'd' have no path to the reference node (joined by R2 (line 3))"]
+    """
+    from solver.analysis.ports import load_element, signal_elements, small_signal_elements
+    if circuit.signal is None:
+        return []
+    base = small_signal_elements(_biased_part(circuit))
+    port_nodes = tuple(circuit.output_port) if (circuit.load or circuit.output) else ()
+    configs = []
+    if circuit.load is not None:
+        configs.append((base + signal_elements(circuit) + [load_element(circuit)], ""))
+        configs.append((base + signal_elements(circuit), " without the load"))
+    else:
+        configs.append((base + signal_elements(circuit), ""))
+    seen, errors, warnings = set(), [], []
+    for i, (elements, context) in enumerate(configs):
+        # single connections are a property of the netlist: counted once, in the AC view
+        found = check_branches(branches(elements, circuit.ground, view), circuit, view, port_nodes, context,
+                               single=(i == 0 and view == "ac"))
+        if i == 0 and view != "ac":
+            found += [d for d in check_branches(branches(elements, circuit.ground, "ac"), circuit, "ac",
+                                                port_nodes, "", single=True) if d.severity == "warning"]
+        for d in found:
+            key = d.message.replace(context, "") if context else d.message
+            if key in seen:
+                continue
+            seen.add(key)
+            (errors if d.severity == "error" else warnings).append(d)
+        if errors:
+            break  # the loaded configuration's errors explain the unloaded ones
+    return _in_line_order(errors + warnings)
+
+
+def check_two_port(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
+    """Topology diagnostics of the network that ``portwise twoport`` measures.
+
+    The network is the circuit without its signal and load; the graph checks run
+    with both ports terminated (a resistance across each), the configuration of
+    the S-parameter measurement, so that a fault inside the network is named
+    instead of every matrix coming out as "does not exist".
+
+    Parameters
+    ----------
+    circuit : Circuit
+    view : "ac" or "dc"
+
+    Returns
+    -------
+    list of Diagnostic
+        Errors first, then warnings.
+
+    Examples
+    --------
+    >>> from solver.api import loads
+    >>> c = loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nresistor R2 (x, y) 1k\\nload RL (b, gnd) 1k\\n")
+    >>> [d.message.split(" (joined")[0] for d in check_two_port(c) if d.severity == "error"]
+    ["nodes 'x', 'y' have no path to the reference node with both ports terminated"]
+    """
+    from solver.circuit.elements import Resistor
+    from solver.analysis.ports import small_signal_elements
+    if circuit.signal is None or not (circuit.load or circuit.output):
+        return []
+    ends = [Resistor("port 1 termination", tuple(circuit.signal.nodes), 1.0, None, "", circuit.signal.loc),
+            Resistor("port 2 termination", tuple(circuit.output_port), 1.0, None, "",
+                     circuit.output_loc or (circuit.load.loc if circuit.load else None))]
+    network = branches(small_signal_elements(_biased_part(circuit)), circuit.ground, view)
+    present = {GND} | {n for b in network for n in (*b.nodes, *b.senses)}
+    diags = []
+    for k, end in enumerate(ends, 1):
+        for n in dict.fromkeys(GND if n in circuit.ground else n for n in end.nodes):
+            if n not in present:
+                diags.append(Diagnostic("error", end.loc or Loc(circuit.file, 1, 1),
+                                        f"port {k} node {_show(n, circuit)} is not connected to any element of "
+                                        "the network (the two-port leaves out the signal and the load)"))
+    if diags:
+        return diags
+    diags = check_branches(network + branches(ends, circuit.ground, view), circuit, view,
+                           context=" with both ports terminated")
+    return _in_line_order(diags)
+
+
+def device_branches(c: Circuit) -> list[Branch]:
+    """The large-signal devices as graph branches of the bias solve's DC view.
+
+    A transistor's junctions and a diode conduct (impedances: "r"); a MOSFET's channel
+    joins drain and source, and its gate only reads a voltage (a sense).
+
+    Examples
+    --------
+    >>> from solver.api import loads
+    >>> c = loads("supply VDD (vdd, gnd) 5 V\\nsignal VS (g, gnd) 1 V\\nnmos M1 (d, g, gnd) k=1m, vth=1\\n"
+    ...           "resistor RD (vdd, d) 1k\\noutput (d, gnd)\\n")
+    >>> [(b.name, b.nodes, b.senses) for b in device_branches(c)]
+    [('M1', ('d', '\\x00gnd'), ('g',))]
+    """
+    canon = (lambda n: GND if n in c.ground else n)  # noqa: E731
+    out = []
+    for d in c.devices:
+        t = {k: canon(n) for k, n in d.nodes.items()}
+        if d.is_bjt:
+            out += [Branch(d.name, "r", (t["B"], t["E"]), d.loc, (), d.name),
+                    Branch(d.name, "r", (t["B"], t["C"]), d.loc, (), d.name)]
+        elif d.is_mos:
+            out.append(Branch(d.name, "r", (t["D"], t["S"]), d.loc, (t["G"],), d.name))
+        else:
+            out.append(Branch(d.name, "r", (t["A"], t["K"]), d.loc, (), d.name))
+    return out
+
+
+def check_bias(circuit: Circuit, linear: list[Element]) -> list[Diagnostic]:
+    """Graph checks of the bias solve's DC view, before Newton–Raphson starts.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    linear : list of Element
+        The linear elements at DC (:func:`solver.analysis.bias.dc_elements`): supplies at their
+        values, the signal zeroed behind its rs, the load in place.
+
+    Returns
+    -------
+    list of Diagnostic
+        Errors: loops of voltage-defined branches (inductors are shorts here), cut sets
+        of current-defined branches, and groups with no DC path to the reference whose
+        voltage a control input reads (a MOSFET gate, an op-amp input, a controlled
+        source). A group that nothing reads is left to the bias solve, which ties it to
+        the reference and warns.
+
+    Examples
+    --------
+    >>> from solver.api import loads
+    >>> from solver.analysis.bias import dc_elements
+    >>> c = loads("supply VCC (vcc, gnd) 9 V\\nsignal VS (a, gnd) 1 mV\\ninductor L1 (vcc, gnd) 1 mH\\n"
+    ...           "resistor R1 (a, gnd) 1k\\nload RL (a, gnd) 10k\\n")
+    >>> [d.message.split(";")[0] for d in check_bias(c, dc_elements(c))]
+    ['a loop of voltage-defined branches in the DC view (capacitors open, inductors shorted): L1 (line 3), VCC (line 1)']
+    """
+    bs = branches(linear, circuit.ground, "dc") + device_branches(circuit)
+    diags = check_branches(bs, circuit, "dc", single=False, tied=True,
+                           reactive=any(e.reactive for e in linear))
+    return _in_line_order(diags)
+
+
+def _biased_part(c: Circuit) -> Circuit:
+    """The circuit without the devices whose operating point is not known yet (bias pending)."""
+    import dataclasses
+    if all(d.ss for d in c.devices):
+        return c
+    return dataclasses.replace(c, devices=[d for d in c.devices if d.ss])
+
+
+def require_sound(circuit: Circuit, view: str = "ac", two_port: bool = False) -> None:
+    """Run :func:`check`; raise InputError with every error, keep warnings on the circuit.
+
+    Parameters
+    ----------
+    circuit : Circuit
+    view : "ac" or "dc"
+        "dc" for a solve at 0 Hz and for the bias solve, "ac" otherwise.
+    two_port : bool
+        Check the network ``portwise twoport`` measures instead (:func:`check_two_port`).
+
+    Raises
+    ------
+    InputError
+        With every error (and the circuit's warnings), in line order. Devices
+        without an operating point are reported first, on their own.
+
+    Notes
+    -----
+    Warnings are added to ``circuit.warnings`` once (the commands print them).
+
+    Examples
+    --------
+    >>> from solver.api import loads
+    >>> c = loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nload RL (a, gnd) 1k\\n")
+    >>> require_sound(c)
+    >>> [d.message.split(" (")[0] for d in c.warnings]
+    ["node 'b' has a single connection"]
+    """
+    from solver.diagnostics import InputError
+    errors = []
+    for dev in circuit.devices:
+        if not dev.ss:  # the bias solve fills it; without one the model is unknown
+            what = {"npn": "ic=", "pnp": "ic=", "nmos": "id= and vov=", "pmos": "id= and vov="}.get(dev.kind, "id=")
+            errors.append(Diagnostic("error", dev.loc or Loc(circuit.file, 1, 1),
+                                     f"{dev.name} has no operating point, so its small-signal model is unknown: "
+                                     f"give {what} (or gm=), or solve the bias first"))
+    if errors:
+        raise InputError(errors + [d for d in circuit.warnings if d.severity == "warning"])
+    diags = check_two_port(circuit, view) if two_port else check(circuit, view)
+    errors = [d for d in diags if d.severity == "error"]
+    if errors:
+        raise InputError(errors + [d for d in circuit.warnings + diags if d.severity == "warning"])
+    for d in diags:
+        if d not in circuit.warnings:
+            circuit.warnings.append(d)
+
+
+def _drive_systems(c: Circuit):
+    """(description, System) of the solves the port analysis makes, loaded one first."""
+    from solver.engine.mna import assemble
+    from solver.analysis.ports import load_element, signal_elements, small_signal_elements
+    base = small_signal_elements(c)
+    if c.load is not None:
+        yield "with the load", assemble(base + signal_elements(c) + [load_element(c)], c.ground)
+    yield "without the load", assemble(base + signal_elements(c), c.ground)
+
+
+def _unknown(name: str, c: Circuit, kinds: dict | None = None) -> str:
+    """``v(a)`` -> node 'a'; ``i(U1)`` -> the output current of op-amp U1; ``i(V1)`` -> the current of V1."""
+    inner = name[2:-1]
+    if name.startswith("v("):
+        return f"node {_show(inner, c)}"
+    if (kinds or {}).get(inner) is Nullor:
+        return f"the output current of op-amp {inner}"
+    return f"the current of {inner}"
+
+
+def _equation(name: str, c: Circuit, kinds: dict | None = None) -> str:
+    """The row of an unknown: KCL at a node, or the branch law of a voltage-defined element."""
+    inner = name[2:-1]
+    if name.startswith("v("):
+        return f"KCL at {_show(inner, c)}"
+    if (kinds or {}).get(inner) is Nullor:
+        return f"the input condition of op-amp {inner} (v+ = v-)"
+    return f"the voltage law of {inner}"
+
+
+def explain_singular(c: Circuit, frequency_hz: float, what: str) -> list[Diagnostic]:
+    """Diagnostics for a system that the checks passed but that cannot be solved (+ the circuit's warnings).
+
+    Names the unknowns no equation determines and the dependent equations, from
+    :func:`solver.engine.mna.diagnose` (structural rank by bipartite matching, then the
+    null space), for the first configuration that is singular.
+
+    Parameters
+    ----------
+    c : Circuit
+    frequency_hz : float
+        The analysis frequency the solve failed at.
+    what : str
+        The port analysis' own message, used when no drive configuration is singular.
+
+    Returns
+    -------
+    list of Diagnostic
+        One error, located at the first element on an undetermined node, then the warnings.
+    """
+    import math
+
+    from solver.engine.mna import SingularSystem, diagnose
+    s = 2j * math.pi * frequency_hz
+    where = c.signal.loc if c.signal and c.signal.loc else Loc(c.file, 1, 1)
+    for desc, system in _drive_systems(c):
+        try:
+            system.solve(s)
+            continue
+        except SingularSystem:
+            pass
+        info = diagnose(system, s)
+        kind = "structurally singular (the pattern of connections alone)" if info.structural else \
+            "numerically singular (the element values cancel)"
+        msg = (f"the circuit {desc} is {kind} at {frequency_hz:g} Hz: rank {'at most ' if info.estimated else ''}"
+               f"{info.rank} of {info.size}")
+        kinds = {e.name: type(e) for e in system.stamper.elements if e.needs_branch}
+        if info.undetermined:
+            msg += f"; undetermined: {_names(info.undetermined, lambda u: _unknown(u, c, kinds))}"
+        if info.redundant:
+            msg += f"; dependent equations: {_names(info.redundant, lambda u: _equation(u, c, kinds))}"
+        if not info.undetermined and not info.redundant:
+            msg += " (too large for the dense analysis that names the nodes)"
+        nodes = {u[2:-1] for u in info.undetermined if u.startswith("v(")}
+        near = [e.loc for e in system.stamper.elements if e.loc and nodes & set(e.nodes)]
+        return [Diagnostic("error", min(near, key=lambda l: (l.line, l.col)) if near else where, msg)] + c.warnings
+    return [Diagnostic("error", where, f"{what} (the system is singular at the output port test)")] + c.warnings
+
+
+def warn_conditioning(c: Circuit, frequency_hz: float) -> None:
+    """Warn (once, on ``circuit.warnings``) when the loaded system is ill-conditioned.
+
+    Parameters
+    ----------
+    c : Circuit
+    frequency_hz : float
+
+    Notes
+    -----
+    The threshold is :data:`solver.engine.mna.COND_WARN` on the row- and
+    column-equilibrated matrix, so that mixing siemens, farads and unit
+    entries alone does not trigger it.
+    """
+    import math
+
+    from solver.engine.mna import COND_WARN, condition_estimate
+    s = 2j * math.pi * frequency_hz
+    desc, system = next(iter(_drive_systems(c)))
+    cond = condition_estimate(system, s)
+    if cond > COND_WARN:
+        where = c.signal.loc if c.signal and c.signal.loc else Loc(c.file, 1, 1)
+        d = Diagnostic("warning", where, f"the system {desc} is ill-conditioned at {frequency_hz:g} Hz "
+                       f"(condition estimate {cond:.2g} > {COND_WARN:.0g}): results may have few correct "
+                       "digits; look for element values many decades apart or nearly cancelling")
+        if d not in c.warnings:
+            c.warnings.append(d)
+
+
+
+def _node_locs(c: Circuit) -> dict[tuple[str, str], Loc]:
+    """(element or device full name, node) -> where the node is written in its statement.
+
+    Read from the elaborated scopes (:class:`solver.circuit.elaborate.Resolver`), so that a
+    warning about a node can put its caret under the node name itself.
+    """
+    res = c.resolver
+    top = getattr(res, "top", None)
+    out: dict[tuple[str, str], Loc] = {}
+    if top is None:
+        return out
+    todo, seen = [top], set()
+    while todo:
+        scope = todo.pop()
+        if id(scope) in seen:
+            continue
+        seen.add(id(scope))
+        for entry in scope.names.values():
+            if entry.kind == "instance" and entry.scope is not None:
+                todo.append(entry.scope)
+            stmt = entry.stmt
+            if stmt is None or entry.scope is None:
+                continue
+            for group in getattr(stmt, "groups", ()):
+                for node in group:
+                    out.setdefault((entry.full, res.node(node, entry.scope)), node.loc)
+    return out

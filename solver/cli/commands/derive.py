@@ -1,0 +1,117 @@
+"""portwise derive: a port quantity as an exact expression in the circuit's own symbols."""
+from __future__ import annotations
+
+HELP = "exact symbolic expression of a port quantity (with || for parallel combinations)"
+DESCRIPTION = """\
+Solve the small-signal circuit symbolically: every element value is a symbol
+named after the element (RC, RL), the signal's resistance is VS.rs, a BJT gives
+Q1.gm, Q1.rpi, Q1.ro (when finite) ... and s is the complex frequency. The
+result is printed in the netlist's expression language, with || for the
+parallel combinations it recognises (e.g. -Q1.gm*(Q1.ro || RC || RL))."""
+EPILOG = """\
+examples:
+  portwise derive circuits/mic_preamp.pw Av
+  portwise derive circuits/mic_preamp.pw Av --limit Q1.ro=oo
+  portwise derive circuits/mic_preamp.pw all --keep RC,RL,Q1.gm --latex
+  portwise derive circuits/mic_preamp.pw Gv --dominant 5% --json
+
+Symbols not kept take their netlist values. --dominant drops, coefficient by
+coefficient of s, the terms whose summed size at the nominal values is within the
+tolerance, and reports the error this causes at the analysis frequency.
+Small-signal results are linear estimates, not a safety assessment."""
+
+QUANTITY_CHOICES = ("Rin", "Rout", "Avo", "Av", "Gv", "Gvo", "Ai", "Zt", "Zto", "all")
+
+
+def _names(values) -> list[str]:
+    out = []
+    for v in values or ():
+        out += [n.strip() for n in v.split(",") if n.strip()]
+    return out
+
+
+def add_arguments(p) -> None:
+    p.add_argument("file", help="netlist file (.pw)")
+    p.add_argument("quantity", choices=QUANTITY_CHOICES, metavar="QUANTITY",
+                   help="one of Rin Rout Avo Av Gv Gvo Ai (Zt Zto for a current signal), or all")
+    p.add_argument("--keep", action="append", metavar="NAMES",
+                   help="comma-separated symbols to keep symbolic (the others take their values)")
+    p.add_argument("--numeric", action="append", metavar="NAMES",
+                   help="comma-separated symbols to replace by their netlist values")
+    p.add_argument("--limit", action="append", default=[], metavar="NAME=oo|0",
+                   help="take a limit, e.g. Q1.ro=oo (repeatable, applied in order)")
+    p.add_argument("--dominant", metavar="TOL", help="drop terms below TOL (e.g. 5%% or 0.05)")
+    p.add_argument("--at", metavar="FREQ", help="frequency for the --dominant error (default as solve)")
+    p.add_argument("--expand-bias", action="store_true",
+                   help="write bias-form devices' gm, rpi, ro in terms of ic, beta, va and V_T")
+    p.add_argument("--latex", action="store_true", help="print LaTeX (\\parallel for ||)")
+    p.add_argument("--json", action="store_true", help="print JSON")
+
+
+def tolerance(text: str) -> float:
+    from solver.diagnostics import error
+    from solver.language.units import ONE
+    from solver.cli.commands.common import option_quantity
+    hint = "a tolerance is a fraction below 1 or a percentage (5%)"
+    v = option_quantity(text, "--dominant", (None, ONE), hint)
+    if not (0 <= v < 1):
+        raise error(None, f"--dominant: {hint}")
+    return v
+
+
+def run(args) -> int:
+    from solver import api
+    from solver.analysis.symbolic.claims import parse_limit
+    from solver.analysis.symbolic.derive import derive
+    from solver.analysis.symbolic.ports import circuit_symbols
+    from solver.cli.commands.common import emit_json, frequency, print_warnings
+    c = api.load(args.file)
+    from solver.analysis.bias import ensure_bias
+    ensure_bias(c)  # devices given by DC parameters: bias first (refuses a device outside its region)
+    print_warnings(c)
+    current = c.signal.kind == "A"
+    every = ["Rin", "Rout", "Avo", "Av", "Zt" if current else "Gv", "Zto" if current else "Gvo"]
+    if c.load is not None:
+        every.append("Ai")
+    if args.quantity == "all":
+        qs = every
+    elif args.quantity not in every:
+        from solver.diagnostics import error
+        why = "the circuit has no load" if args.quantity == "Ai" else \
+            f"a {'current' if current else 'voltage'} signal gives {', '.join(every[4:6])}"
+        raise error(None, f"{args.quantity} is not defined here: {why}")
+    else:
+        qs = [args.quantity]
+    syms = circuit_symbols(c)
+    limits = [parse_limit(t, syms) for t in args.limit]
+    keep = _names(args.keep) if args.keep else None
+    numeric = _names(args.numeric)
+    tol = tolerance(args.dominant) if args.dominant is not None else None
+    f, _ = api.analysis_frequency(c, frequency(args.at) if args.at is not None else None)
+    results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias)
+    if args.json:
+        items = []
+        for d in results:
+            item = {"quantity": d.quantity, "expression": d.plain, "latex": d.latex, "sympy": d.sympy,
+                    "symbols": d.symbols}
+            if d.pruned is not None:
+                item["dominant"] = {"tolerance": tol, "frequency_hz": f, "terms_dropped": d.pruned.dropped,
+                                    "terms_kept": d.pruned.kept,
+                                    "coefficient_error": d.pruned.coefficient_error,
+                                    "error_at_frequency": d.pruned.error_at_f,
+                                    "error_bound_at_frequency": _finite(d.pruned.bound_at_f)}
+            items.append(item)
+        emit_json(items[0] if len(items) == 1 else {"quantities": items})
+        return 0
+    for d in results:
+        text = d.latex if args.latex else d.plain
+        print(f"{d.quantity} = {text}")
+        if d.pruned is not None:
+            print(f"  dominant terms ({tol:.3g} tolerance): dropped {d.pruned.dropped}, kept {d.pruned.kept}; "
+                  f"error at {f:g} Hz {d.pruned.error_at_f:.3g} (bound {d.pruned.bound_at_f:.3g})")
+    return 0
+
+
+def _finite(x: float):
+    import math
+    return x if math.isfinite(x) else "inf"

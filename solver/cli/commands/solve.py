@@ -1,0 +1,57 @@
+"""portwise solve: port quantities of a netlist at one frequency."""
+from __future__ import annotations
+
+HELP = "port quantities Rin, Rout, Avo, Av, Gv, Gvo, Ai at one frequency"
+DESCRIPTION = """\
+Expand every transistor into its small-signal model, solve the MNA system and
+print the port quantities: Rin (input port = the signal's nodes, load in place),
+Rout (output port, load removed, signal zeroed), Avo and Av (v_out/v_in without
+and with the load), Gvo and Gv (v_out/v_sig; Zt = v_out/i_sig for a current
+signal) and Ai = i_load/i_in."""
+EPILOG = """\
+example:
+  portwise solve circuits/mic_preamp.pw --at 10kHz
+  portwise solve circuits/mic_preamp.pw --json
+  portwise solve circuits/mic_preamp.pw --symbolic"""
+
+
+def add_arguments(p) -> None:
+    p.add_argument("file", help="netlist file (.pw)")
+    p.add_argument("--at", metavar="FREQ", help="analysis frequency, e.g. 10kHz (default: the detected midband "
+                   "frequency; DC for a circuit without capacitors or inductors)")
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
+    p.add_argument("--force", action="store_true", help="compute port quantities even when a bias-solved "
+                   "transistor is outside its amplifying region (the output warns)")
+    p.add_argument("--symbolic", action="store_true", help="also show each port quantity as a formula in the "
+                   "circuit's symbols when the circuit is small enough to do so quickly (loads sympy: "
+                   "about half a second more; 'portwise derive' does any size)")
+
+
+def run(args) -> int:
+    from solver import api
+    from solver.output.report import solve_report
+    from solver.cli.commands.common import emit_json, frequency, print_warnings
+    c = api.load(args.file)
+    at = frequency(args.at) if args.at is not None else None
+    result = api.solve(c, at, force=args.force)
+    print_warnings(c)
+    if result.bias is not None and result.bias.warnings:
+        from solver.cli import print_diagnostics
+        print_diagnostics(result.bias.warnings)
+    if args.json:
+        obj = result.to_json()
+        if result.bias is not None:
+            from solver.analysis.bias import to_json
+            obj["bias"] = to_json(result.bias, c)
+            obj["notes"] = result.notes
+        emit_json(obj)
+    else:
+        if result.bias is not None:
+            from solver.output.biasreport import bias_lines
+            result.notes[:0] = [""] + bias_lines(c, result.bias) + ([""] if result.notes else [])
+        symbolic = None
+        if args.symbolic:
+            from solver.analysis.symbolic.quick import quick_symbolic
+            symbolic = quick_symbolic(c)
+        print(solve_report(result, symbolic=symbolic))
+    return 0

@@ -1,0 +1,94 @@
+"""portwise sweep: frequency response of a port quantity, band edges, poles and zeros, estimates."""
+from __future__ import annotations
+
+HELP = "frequency response: midband, -3 dB corners, poles and zeros, hand estimates, Bode plot"
+DESCRIPTION = """\
+Evaluate one port quantity (default Gv) at log-spaced frequencies and summarize
+it: the midband level and phase (at the flat top of the response), the
+-3 dB corners f_low and f_high (located by root finding between sweep points),
+bandwidth and gain-bandwidth product, the poles and zeros of the quantity
+(finite generalized eigenvalues of the MNA pencils, rad/s) and the designer's
+hand estimates beside the exact corners: open-circuit time constants (f_high),
+short-circuit time constants (f_low) and, for a single inverting stage, the
+Miller-approximation pole."""
+EPILOG = """\
+examples:
+  portwise sweep circuits/hydrophone_ce_stage.pw --from 1Hz --to 100MHz
+  portwise sweep circuits/hydrophone_ce_stage.pw --from 1Hz --to 100MHz --per-decade 40 --plot bode.svg
+  portwise sweep circuits/hydrophone_ce_stage.pw --from 10Hz --to 10MHz --quantity Rin --csv rin.csv --json"""
+
+QUANTITY_CHOICES = ("Gv", "Gvo", "Av", "Avo", "Ai", "Rin", "Rout", "Zt", "Zto")
+
+
+def add_arguments(p) -> None:
+    p.add_argument("file", help="netlist file (.pw)")
+    p.add_argument("--from", dest="f_from", metavar="FREQ", required=True, help="lowest frequency, e.g. 1Hz")
+    p.add_argument("--to", dest="f_to", metavar="FREQ", required=True, help="highest frequency, e.g. 100MHz")
+    g = p.add_mutually_exclusive_group()
+    g.add_argument("--points", type=int, metavar="N", help="number of log-spaced points in all")
+    g.add_argument("--per-decade", type=int, metavar="N", help="points per decade (default 20)")
+    p.add_argument("--quantity", choices=QUANTITY_CHOICES, metavar="Q",
+                   help="Gv (default; Zt for a current signal), Gvo, Av, Avo, Ai, Rin, Rout, Zt, Zto")
+    p.add_argument("--plot", metavar="FILE", help="write a Bode plot (.png or .svg)")
+    p.add_argument("--csv", metavar="FILE", help="write f_hz, magnitude_db, phase_deg, re, im")
+    p.add_argument("--force", action="store_true", help="replace output files that exist")
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
+
+
+MAX_POINTS = 1_000_000
+
+
+def run(args) -> int:
+    from pathlib import Path
+
+    from solver import api
+    from solver.diagnostics import error
+    from solver.analysis.frequency import ResponseError, default_quantity, frequencies
+    from solver.analysis.response import analyse, csv_text, text_report
+    from solver.cli.commands.common import emit_json, frequency, print_warnings, write_file
+    f_from = frequency(args.f_from, "--from")
+    f_to = frequency(args.f_to, "--to")
+    if f_from <= 0:
+        raise error(None, "--from: a log sweep starts above 0 Hz")
+    if f_to <= f_from:
+        raise error(None, "--to must be above --from")
+    if args.points is not None and not (2 <= args.points <= MAX_POINTS):
+        raise error(None, f"--points: between 2 and {MAX_POINTS}")
+    if args.per_decade is not None and not (1 <= args.per_decade <= 100_000):
+        raise error(None, "--per-decade: between 1 and 100000")
+    plot_fmt = None
+    if args.plot:
+        plot_fmt = Path(args.plot).suffix.lower().lstrip(".")
+        if plot_fmt not in ("png", "svg"):
+            raise error(None, "--plot: the file name ends in .png or .svg")
+    for out in (args.csv, args.plot):  # refuse before any work, so nothing is half written
+        if out and Path(out).exists() and not args.force:
+            raise error(None, f"'{out}' exists; use --force to replace it")
+    c = api.load(args.file)
+    from solver.analysis.bias import ensure_bias
+    ensure_bias(c)  # devices given by DC parameters: bias first (refuses a device outside its region)
+    from solver.circuit.topology import require_sound
+    require_sound(c, "ac")  # floating nodes, source loops, cut sets: named before any solve
+    quantity = args.quantity or default_quantity(c)
+    freqs = frequencies(f_from, f_to, args.points, args.per_decade)
+    if len(freqs) > MAX_POINTS:
+        raise error(None, f"the sweep would have {len(freqs)} points (at most {MAX_POINTS})")
+    try:
+        sm = analyse(c, quantity, freqs)
+    except ResponseError as e:
+        raise error(None, f"--quantity: {e}") from None
+    print_warnings(c)
+    if args.csv:
+        write_file(args.csv, csv_text(freqs, sm.h), args.force)
+    if args.plot:
+        from solver.output.plot import bode
+        b = sm.band
+        img = bode(freqs, sm.h, plot_fmt, c.title or Path(c.file).stem, quantity,
+                   {"f_low": b.f_low_hz, "f_high": b.f_high_hz} if b else None,
+                   (sm.to_json()["summary"]["midband_db"] if b else None))
+        write_file(args.plot, img, args.force)
+    if args.json:
+        emit_json(sm.to_json())
+    else:
+        print(text_report(sm))
+    return 0

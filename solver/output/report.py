@@ -1,0 +1,118 @@
+"""Plain-text reports: engineering notation, units, gains in dB, phase when it matters."""
+from __future__ import annotations
+
+import cmath
+import math
+
+from solver.circuit.model import Circuit
+
+_ENG = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T"}
+UNIT_TEXT = {"ohm": "Ω", "V/V": "V/V", "A/A": "A/A"}
+# IEC 61140 extra-low-voltage bands: 50 V a.c. rms, 120 V ripple-free d.c. (from memory)
+ELV_DC_VOLTS = 120.0
+ELV_AC_VOLTS = 50.0
+CAUTION = ("Small-signal results are linear estimates around one operating point, not a safety "
+           "assessment. Mains and high-voltage work follows local codes and licensed practice.")
+
+
+def eng(x: float, unit: str = "", digits: int = 4) -> str:
+    """Engineering notation: ``eng(4700, 'Ω') == '4.7 kΩ'``.
+
+    Examples
+    --------
+    >>> eng(0.0386817, "S")
+    '38.68 mS'
+    >>> eng(float("inf"), "Ω")
+    '∞ Ω'
+    """
+    sep = " " if unit else ""
+    if math.isnan(x):
+        return "nan" + sep + unit
+    if math.isinf(x):
+        return ("∞" if x > 0 else "-∞") + sep + unit
+    if x == 0:
+        return "0" + sep + unit
+    e = int(math.floor(math.log10(abs(x)) / 3) * 3)
+    e = max(-15, min(12, e))
+    if (not unit or "/" in unit) and -3 <= e <= 3 or unit in ("V/V", "A/A"):
+        e = 0  # ratios and plain numbers take no prefix
+    m = x / 10 ** e
+    text = f"{m:.{digits}g}"
+    if "e" in text:
+        return f"{x:.{digits}g}{sep}{unit}"
+    return f"{text}{sep}{_ENG[e]}{unit}"
+
+
+def fmt_quantity(name: str, z: complex, unit: str) -> str:
+    u = UNIT_TEXT.get(unit, unit)
+    if cmath.isinf(z) or cmath.isnan(z):
+        return eng(z.real, u)
+    real = abs(z.imag) <= 1e-6 * abs(z)
+    if real:
+        text = eng(z.real, u)
+    else:
+        text = f"{eng(abs(z), u)} ∠ {math.degrees(cmath.phase(z)):.2f}°  ({z.real:.5g} {z.imag:+.4g}j)"
+    if unit in ("V/V", "A/A") and z != 0:
+        text += f"   {20 * math.log10(abs(z)):.2f} dB"
+    return text
+
+
+def safety_notes(c: Circuit) -> list[str]:
+    notes = []
+    for s in c.supplies:
+        if s.kind == "V" and abs(s.value) > ELV_DC_VOLTS:
+            notes.append(f"caution: supply {s.name} is {s.value:g} V, above the {ELV_DC_VOLTS:g} V d.c. "
+                         "extra-low-voltage limit (IEC 61140): hazardous voltage, follow local codes.")
+    sig = c.signal
+    if sig is not None and sig.kind == "V" and abs(sig.value) / math.sqrt(2) > ELV_AC_VOLTS:
+        # the signal's value is its amplitude (peak); the a.c. band is in rms
+        notes.append(f"caution: signal {sig.name} is {abs(sig.value):g} V peak ({abs(sig.value) / math.sqrt(2):.4g} V "
+                     f"rms), above the {ELV_AC_VOLTS:g} V a.c. extra-low-voltage limit (IEC 61140): hazardous "
+                     "voltage, follow local codes.")
+    return notes
+
+
+def device_lines(c: Circuit, table: dict) -> list[str]:
+    names = {"gm": ("gm", "S"), "rpi": ("rπ", "Ω"), "ro": ("ro", "Ω"), "re": ("re", "Ω"),
+             "beta": ("β", ""), "gmb": ("gmb", "S"), "rx": ("rx", "Ω"), "cpi": ("cπ", "F"),
+             "cmu": ("cμ", "F"), "cgs": ("cgs", "F"), "cgd": ("cgd", "F"), "rd": ("rd", "Ω")}
+    lines = []
+    width = max((len(n) for n in table), default=2)
+    for d in c.devices:
+        vals = table.get(d.name, {})
+        kind = d.kind + (f" {d.model}" if d.is_bjt else "")
+        cells = []
+        for k, v in vals.items():
+            label, unit = names.get(k, (k, ""))
+            cells.append(f"{label} {eng(v, unit)}")
+        lines.append(f"  {d.name:<{width}}  {kind:<14} " + "   ".join(cells))
+    return lines
+
+
+def solve_report(result, symbolic: dict | None = None) -> str:
+    from solver.analysis.ports import UNITS
+    c = result.circuit
+    out = []
+    out.append(c.title or c.file)
+    f = result.frequency_hz
+    if f == 0 and not c.reactive:
+        out.append("small-signal analysis: no capacitors or inductors, the results hold at any frequency")
+    else:
+        out.append(f"small-signal analysis at {'DC' if f == 0 else eng(f, 'Hz')}")
+    out.extend(result.notes)
+    if c.devices:
+        out.append("")
+        out.append("devices")
+        out.extend(device_lines(c, result.devices))
+    out.append("")
+    out.append("port quantities" + (" (current signal: Zt = v_out/i_sig)" if c.signal.kind == "A" else ""))
+    for name, z in result.quantities.items():
+        line = f"  {name:<5} {fmt_quantity(name, z, UNITS[name])}"
+        if symbolic and name in symbolic:
+            line += f"\n        = {symbolic[name]}"
+        out.append(line)
+    notes = safety_notes(c)
+    out.append("")
+    out.extend(notes)
+    out.append(CAUTION)
+    return "\n".join(out)
