@@ -11,7 +11,8 @@ from scipy.optimize import brentq, fsolve
 
 import solver
 from solver.language import expr as ex
-from solver.analysis.bias import BiasError, apply_bias, bias_circuit, solve_bias
+from solver.analysis.bias import BiasError, bias_circuit, solve_bias
+from solver.analysis.bias import biased as biased_copy
 from solver.diagnostics import InputError
 
 VT = boltzmann * 300.0 / elementary_charge  # CODATA via scipy.constants
@@ -30,8 +31,7 @@ def em(vbe, vbc, i_s=1e-15, bf=100.0, br=1.0, va=math.inf):
 def biased(text):
     c = solver.loads(text)
     res = solve_bias(c)
-    apply_bias(c, res)
-    return c, res
+    return biased_copy(c, res), res
 
 
 FIXED = """
@@ -329,10 +329,11 @@ def test_bias_derived_gain_matches_the_midband_formula():
 def test_claims_may_name_bias_derived_values():
     text = FOUR.format(extra="") + "claim Av ~ -(RC || RL)*Q1.gm within 5%\nlet gain = -Q1.gm*RC\n"
     c = solver.loads(text)  # elaboration accepts names whose values need the bias
-    solver.solve(c)
-    res = c.resolver
-    v = ex.evaluate(c.claims[0].expr, res.lookup(res.top))
-    gm = c.devices[0].ss["gm"]
+    b = solver.solve(c).circuit  # the biased copy resolves them
+    res = b.resolver
+    v = ex.evaluate(b.claims[0].expr, res.lookup(res.top))
+    gm = b.devices[0].ss["gm"]
+    assert c.devices[0].ss == {} and "Q1.gm" not in c.values  # the netlist's own circuit is unchanged
     assert v.x == pytest.approx(-(3.3e3 * 10e3 / 13.3e3) * gm, rel=1e-12)
 
 
@@ -346,7 +347,7 @@ def test_capacitor_only_node_is_tied_with_a_warning():
 
 def test_force_keeps_going_and_warns():
     c = solver.loads(FIXED.format(rb="47k", rc="4k7", extra=""))
-    res = bias_circuit(c, force=True)
+    _, res = bias_circuit(c, force=True)
     assert any("WARNING: Q1 is in saturation" in n for n in res.notes)
 
 
@@ -453,8 +454,7 @@ def test_forced_triode_mosfet_takes_the_exact_square_law_derivatives():
     # in triode dI_D/dV_GS = k V_DS and dI_D/dV_DS = k (V_ov - V_DS) for λ = 0
     # (Sedra & Smith 7th ed., section 5.2, from memory)
     text = MOS.format(extra="").replace("resistor RD (vdd, d) 4k7", "resistor RD (vdd, d) 47k")
-    c = solver.loads(text)
-    res = bias_circuit(c, force=True)
+    c, res = bias_circuit(solver.loads(text), force=True)
     m = res.devices["M1"]
     assert m["region"] == "triode"
     ss = c.devices[0].ss

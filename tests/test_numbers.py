@@ -94,6 +94,13 @@ def test_value_errors(text, message):
     assert any(message in d.message for d in e.value.diagnostics), e.value
 
 
-def test_rkm_name_fallback():
-    c = loads("signal VS (a, gnd) 1 V\nresistor RX (a, b) R47\nload RL (b, gnd) 1k\n")
+def test_an_undefined_name_is_never_read_as_an_rkm_code():
+    # IEC 60062 writes 0.47 Ω as R47; in an expression a name starting with a letter is a name, so
+    # the value is written with a leading digit (0R47) and an undefined R47 is an error
+    with pytest.raises(InputError) as e:
+        loads("signal VS (a, gnd) 1 V\nresistor RX (a, b) R47\nload RL (b, gnd) 1k\n")
+    d = e.value.diagnostics[0]
+    assert (d.loc.line, d.loc.col) == (2, 20)
+    assert "undefined name 'R47'" in d.message and "write 0R47" in d.message
+    c = loads("signal VS (a, gnd) 1 V\nresistor RX (a, b) 0R47\nload RL (b, gnd) 1k\n")
     assert c.elements[0].value == pytest.approx(0.47)

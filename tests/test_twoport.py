@@ -8,7 +8,8 @@ import pytest
 
 from solver import loads
 from solver.api import load
-from solver.analysis.twoport import (abcd_to_s, g_to_abcd, h_to_g, read_touchstone, s_sweep, s_to_z, touchstone,
+from solver.output.touchstone import read_touchstone, touchstone
+from solver.analysis.twoport import (abcd_to_s, g_to_abcd, h_to_g, s_sweep, s_to_z,
                             two_port, y_to_h, z_to_s, z_to_y)
 from conftest import CIRCUITS
 

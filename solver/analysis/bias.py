@@ -33,8 +33,9 @@ import numpy as np
 from solver.circuit import dcmodels as dm
 from solver.circuit.devices import DeviceError, needs_bias, small_signal, thermal_voltage
 from solver.diagnostics import Diagnostic, InputError, Loc
-from solver.circuit.elements import (CCVS, VCCS, VCVS, Capacitor, CurrentSource, Element, Inductor, Nullor, Resistor,
-                       VoltageSource)
+from solver.circuit.elements import (CCVS, VCCS, VCVS, Capacitor, CurrentSource, Element, Inductor, Nullor,
+                                     Resistor, VoltageSource)
+from solver.circuit.views import dc_elements
 from solver.engine.mna import SingularSystem, assemble
 from solver.circuit.model import Circuit, Device
 
@@ -222,20 +223,6 @@ def nonlinear_devices(c: Circuit) -> list[_Nonlinear]:
 
 
 # --- the DC view ----------------------------------------------------------------------
-def dc_elements(c: Circuit, scale: float = 1.0) -> list[Element]:
-    """The circuit's linear elements at DC, supplies scaled by ``scale`` (source stepping)."""
-    from solver.analysis.ports import load_element, signal_elements
-    out = list(c.elements)  # capacitors stamp only into C: open at s = 0
-    for s in c.supplies:
-        cls = VoltageSource if s.kind == "V" else CurrentSource
-        out.append(cls(s.name, s.nodes, s.value * scale, None, s.name, s.loc))
-    if c.signal is not None:
-        out.extend(signal_elements(c, 0.0, with_source=c.signal.kind == "V"))
-    if c.load is not None:
-        out.append(load_element(c))
-    return out
-
-
 def _conducting(e: Element, ground: set[str]):
     """Node pairs an element joins at DC (for the no-DC-path check)."""
     if isinstance(e, Capacitor) or isinstance(e, CurrentSource):
@@ -505,9 +492,9 @@ def _result(c, devs, o: _Outcome, total, method, warns) -> BiasResult:
 
 
 # --- from the operating point to small-signal parameters ---------------------------------
-def amplifying(dev: Device) -> bool:
+def amplifying(dev: Device, op: dict) -> bool:
     """True when the device's operating point is in its amplifying region (BJT active, MOS saturation)."""
-    region = dev.op.get("region")
+    region = op.get("region")
     if dev.is_bjt:
         return region == AMPLIFYING["bjt"]
     if dev.is_mos:
@@ -515,8 +502,8 @@ def amplifying(dev: Device) -> bool:
     return True
 
 
-def bias_small_signal(dev: Device) -> dict[str, float]:
-    """Small-signal parameters of a bias-solved device.
+def bias_small_signal(dev: Device, op: dict) -> dict[str, float]:
+    """Small-signal parameters of a bias-solved device at its operating point ``op``.
 
     In its amplifying region the core's bias form applies with the solved
     operating point (gm = |I_C|/V_T, rπ = β/gm, ro = V_A/|I_C|; MOSFET
@@ -525,33 +512,28 @@ def bias_small_signal(dev: Device) -> dict[str, float]:
     triode or cutoff (reached only with --force) takes the exact derivatives
     of the square law instead, since 2 I_D/V_ov has no meaning there.
     """
-    if dev.is_mos and dev.op.get("region") != "saturation":
-        gds = dev.op["_gds"]
-        return {"gm": dev.op["_gm"], "ro": math.inf if gds == 0 else 1.0 / gds,
+    if dev.is_mos and op.get("region") != "saturation":
+        gds = op["_gds"]
+        return {"gm": op["_gm"], "ro": math.inf if gds == 0 else 1.0 / gds,
                 "gmb": dev.params.get("gmb", 0.0), "cgs": dev.params.get("cgs", 0.0),
-                "cgd": dev.params.get("cgd", 0.0), "id": abs(dev.op["id"]), "vov": dev.op["vov"]}
-    shadow = Device(dev.kind, dev.name, dev.nodes,
-                    {k: v for k, v in dev.params.items() if k not in ("k", "vth", "is", "beta_r", "pmax")},
-                    dev.model, dev.loc, op=dev.op)
-    if dev.is_bjt and dev.op["ic"] == 0:
-        shadow.op = dict(dev.op, ic=1e-30)  # a device with no current at all: gm = 0 in effect
-    if not dev.is_bjt and not dev.is_mos and dev.op["id"] == 0:
-        shadow.op = dict(dev.op, id=1e-30)
+                "cgd": dev.params.get("cgd", 0.0), "id": abs(op["id"]), "vov": op["vov"]}
+    shadow = replace(dev, params={k: v for k, v in dev.params.items()
+                                  if k not in ("k", "vth", "is", "beta_r", "pmax")}, ss={})
+    point = dict(op)
+    if dev.is_bjt and op["ic"] == 0:
+        point["ic"] = 1e-30  # a device with no current at all: gm = 0 in effect
+    if not dev.is_bjt and not dev.is_mos and op["id"] == 0:
+        point["id"] = 1e-30
     try:
-        return small_signal(shadow)
+        return small_signal(shadow, point)
     except DeviceError as e:
         raise InputError([Diagnostic("error", dev.loc, f"{dev.name}: {e}")]) from None
 
 
-def apply_bias(c: Circuit, res: BiasResult) -> None:
-    """Fill dev.op for every device, and dev.ss and circuit.values for those that needed the bias.
+def biased(c: Circuit, res: BiasResult) -> Circuit:
+    """The circuit with every bias-solved device's small-signal parameters from ``res``.
 
-    Parameters
-    ----------
-    c : Circuit
-        The circuit that ``res`` was solved for; changed in place.
-    res : BiasResult
-        From :func:`solve_bias`; its notes gain the power and voltage cautions.
+    A new :class:`~solver.circuit.model.Circuit` (and new devices); ``c`` is left as it was.
 
     Examples
     --------
@@ -562,17 +544,19 @@ def apply_bias(c: Circuit, res: BiasResult) -> None:
     ... resistor RC (vcc, c) 2k2
     ... npn Q1 (c, b, gnd) beta=100
     ... output (c, gnd)''')
-    >>> r = solve_bias(c); apply_bias(c, r)
-    >>> c.values["Q1.gm"] == c.devices[0].op["ic"] / thermal_voltage(300.0)
-    True
+    >>> r = solve_bias(c); b = biased(c, r)
+    >>> b.values["Q1.gm"] == r.devices["Q1"]["ic"] / thermal_voltage(300.0), c.devices[0].ss
+    (True, {})
     """
+    devices, values = [], dict(c.values)
     for d in c.devices:
-        d.op = dict(res.devices[d.name])
         if needs_bias(d):
-            d.ss = bias_small_signal(d)
-            for k, v in d.ss.items():
-                c.values[f"{d.name}.{k}"] = v
-    res.notes.extend(cautions(c, res))
+            ss = bias_small_signal(d, res.devices[d.name])
+            d = replace(d, ss=ss)
+            values.update({f"{d.name}.{k}": v for k, v in ss.items()})
+        devices.append(d)
+    resolver = c.resolver.rebound(devices) if c.resolver is not None else None
+    return replace(c, devices=devices, values=values, resolver=resolver)
 
 
 def cautions(c: Circuit, res: BiasResult) -> list[str]:
@@ -580,8 +564,9 @@ def cautions(c: Circuit, res: BiasResult) -> list[str]:
     out = []
     for d in c.devices:
         pmax = d.params.get("pmax")
-        if pmax is not None and abs(d.op.get("power", 0.0)) > pmax:
-            out.append(f"caution: {d.name} dissipates {d.op['power']:.4g} W, above its pmax={pmax:g} W.")
+        power = res.devices[d.name].get("power", 0.0)
+        if pmax is not None and abs(power) > pmax:
+            out.append(f"caution: {d.name} dissipates {power:.4g} W, above its pmax={pmax:g} W.")
     high = [(n, v) for n, v in res.nodes.items() if abs(v) > HIGH_NODE_VOLTS]
     # a high supply is flagged by solver.output.report.safety_notes; this catches stacked supplies
     # and current supplies, whose voltage is only known after the bias solve
@@ -592,13 +577,12 @@ def cautions(c: Circuit, res: BiasResult) -> list[str]:
     return out
 
 
-def region_problems(c: Circuit) -> list[Device]:
+def region_problems(c: Circuit, res: BiasResult) -> list[Device]:
     """Bias-solved transistors that are not in their amplifying region."""
-    return [d for d in c.transistors if needs_bias(d) and d.op and not amplifying(d)]
+    return [d for d in c.transistors if needs_bias(d) and not amplifying(d, res.devices[d.name])]
 
 
-def _region_text(d: Device) -> str:
-    op = d.op
+def region_text(d: Device, op: dict) -> str:
     if d.is_bjt:
         return (f"{d.name} is in {op['region']} (V_BE = {op['vbe']:.4g} V, V_CE = {op['vce']:.4g} V, "
                 f"I_C = {op['ic']:.4g} A)")
@@ -606,8 +590,8 @@ def _region_text(d: Device) -> str:
             f"I_D = {op['id']:.4g} A)")
 
 
-def bias_circuit(c: Circuit, force: bool = False) -> BiasResult:
-    """Solve the bias, fill the devices, and check the regions (what ``portwise solve`` runs).
+def bias_circuit(c: Circuit, force: bool = False) -> tuple[Circuit, BiasResult]:
+    """Solve the bias and check the regions (what every small-signal command runs first).
 
     Parameters
     ----------
@@ -617,9 +601,9 @@ def bias_circuit(c: Circuit, force: bool = False) -> BiasResult:
 
     Returns
     -------
-    BiasResult
-        A copy of the circuit's bias point whose notes carry the cautions and
-        any region warnings.
+    (Circuit, BiasResult)
+        The biased circuit (:func:`biased`) and the operating point, whose notes carry
+        the cautions and any region warnings. ``c`` itself is not changed.
 
     Raises
     ------
@@ -627,51 +611,23 @@ def bias_circuit(c: Circuit, force: bool = False) -> BiasResult:
         The solve did not converge, or a transistor is outside its amplifying
         region and ``force`` is false (one diagnostic per device, at its line).
     """
-    if c.bias is None:  # a circuit does not change after elaboration: solve once
-        try:
-            res = solve_bias(c)
-        except BiasError as e:
-            raise InputError([Diagnostic("error", e.loc or Loc(c.file, 1, 1), str(e))]) from None
-        apply_bias(c, res)
-        c.bias = res
-    res = replace(c.bias, notes=list(c.bias.notes))
-    bad = region_problems(c)
+    try:
+        res = solve_bias(c)
+    except BiasError as e:
+        raise InputError([Diagnostic("error", e.loc or Loc(c.file, 1, 1), str(e))]) from None
+    res.notes.extend(cautions(c, res))
+    bad = region_problems(c, res)
     if bad and not force:
-        raise InputError([Diagnostic("error", d.loc, _region_text(d) + "; the small-signal model needs the "
-                                     f"{'active' if d.is_bjt else 'saturation'} region. Fix the bias "
-                                     "(see 'portwise bias FILE') or use --force to compute anyway")
+        raise InputError([Diagnostic("error", d.loc, region_text(d, res.devices[d.name]) + "; the small-signal "
+                                     f"model needs the {'active' if d.is_bjt else 'saturation'} region. Fix the "
+                                     "bias (see 'portwise bias FILE') or use --force to compute anyway")
                           for d in bad])
     for d in bad:
-        res.notes.append(f"WARNING: {_region_text(d)}: outside its amplifying region, the small-signal "
-                         "results below do not describe this circuit (computed because of --force).")
-    return res
+        res.notes.append(f"WARNING: {region_text(d, res.devices[d.name])}: outside its amplifying region, the "
+                         "small-signal results below do not describe this circuit (computed because of --force).")
+    return biased(c, res), res
 
 
-def ensure_bias(c: Circuit, force: bool = False) -> BiasResult | None:
-    """Run :func:`bias_circuit` when a device needs its bias solved; None when none does.
-
-    Every analysis that expands devices (port quantities, symbolic, sweeps)
-    calls this first, so a netlist given by DC parameters works everywhere.
-    """
-    if any(needs_bias(d) for d in c.devices):
-        return bias_circuit(c, force)
-    return None
-
-
-def to_json(res: BiasResult, c: Circuit) -> dict:
-    """The ``portwise bias --json`` object (signed values for pnp and pmos)."""
-    keys = {"bjt": ("region", "ic", "ib", "vbe", "vce", "power"), "mos": ("region", "id", "vgs", "vds", "power"),
-            "diode": ("region", "id", "vd", "power")}
-    ss_keys = {"bjt": ("gm", "rpi", "ro"), "mos": ("gm", "ro"), "diode": ("rd",)}
-    devices = {}
-    for d in c.devices:
-        kind = "bjt" if d.is_bjt else "mos" if d.is_mos else "diode"
-        op = res.devices[d.name]
-        entry = {k: (op[k] if k == "region" else _num(op[k])) for k in keys[kind]}
-        entry.update({k: _num(d.ss[k]) for k in ss_keys[kind] if k in d.ss})
-        devices[d.name] = entry
-    return {"nodes": {n: _num(v) for n, v in res.nodes.items()}, "devices": devices,
-            "iterations": res.iterations}
-
-
-from solver.output.jsonout import number as _num# noqa: E402  (as the solve JSON writes them)
+def needs_bias_solve(c: Circuit) -> bool:
+    """True when some device is given by DC parameters only (its operating point is solved)."""
+    return any(needs_bias(d) for d in c.devices)

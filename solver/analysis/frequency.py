@@ -1,7 +1,8 @@
 """Frequency response of a port quantity: sweeps, midband, band edges, poles and zeros.
 
-Every port quantity of :mod:`solver.analysis.ports` is a ratio of two linear read-outs
-of one stamped system (G + sC) x = b u with u the unit excitation:
+Every port quantity of the scenario table (:mod:`solver.analysis.scenarios`) is a
+ratio of two linear read-outs of one stamped system (G + sC) x = b u with u the
+unit excitation:
 
     H(s) = (n . x + n0 u) / (d . x + d0 u)
 
@@ -36,12 +37,12 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.sparse as sp
 
-from solver.circuit.elements import CurrentSource, VoltageSource
-from solver.engine.mna import SingularSystem, System, assemble
+from solver.analysis import scenarios as table
 from solver.circuit.model import Circuit
-from solver.analysis.ports import load_element, signal_elements, small_signal_elements
+from solver.circuit.views import is_reactive, small_signal_elements
+from solver.engine.mna import SingularSystem, System, assemble
 
-QUANTITIES = ("Gv", "Av", "Avo", "Gvo", "Rin", "Rout", "Ai", "Zt", "Zto")
+QUANTITIES = table.QUANTITIES
 #: above this many unknowns the sweep uses sparse LU per point instead of batched dense solves
 DENSE_LIMIT = 150
 #: sparse systems whose bandwidth after reverse Cuthill-McKee is at most this use banded LU
@@ -83,47 +84,30 @@ class Scenario:
         return self.system.stamper.size
 
 
-# --- building the scenarios -------------------------------------------------------------------
-def _vdiff(sys_: System, p: str, n: str, scale: complex = 1.0) -> Readout:
+# --- stamping a measurement of the scenario table -------------------------------------------------
+def _readout(sys_: System, terms) -> Readout:
+    """The dense coefficient vector of a read-out of :mod:`solver.analysis.scenarios`."""
     r = np.zeros(sys_.stamper.size, complex)
-    for node, sign in ((p, 1), (n, -1)):
-        i = sys_.stamper.node(node)
-        if i is not None:
-            r[i] += sign * scale
-    return Readout(r)
+    r0 = 0j
+    for t in terms:
+        k = 1.0 / t.per.value if t.per is not None else 1.0
+        if t.kind == "node":
+            i = sys_.stamper.node(t.name)
+            if i is not None:
+                r[i] += t.sign * k
+        elif t.kind == "branch":
+            r[sys_.stamper.branches[t.name]] += t.sign * k
+        else:
+            r0 += t.sign * k
+    return Readout(r, r0)
 
 
-def _branch(sys_: System, name: str, sign: float = 1.0) -> Readout:
-    r = np.zeros(sys_.stamper.size, complex)
-    r[sys_.stamper.branches[name]] = sign
-    return Readout(r)
-
-
-def _drive(c: Circuit, loaded: bool) -> System:
-    els = small_signal_elements(c) + signal_elements(c, 1.0)
-    if loaded:
-        els.append(load_element(c))
-    return assemble(els, c.ground)
-
-
-def _input_current(c: Circuit, sys_: System) -> Readout:
-    p, n = c.signal.nodes
-    if c.signal.kind == "V":
-        # the source's branch current flows from its + node through it: into the circuit is -j
-        return _branch(sys_, c.signal.name, -1.0)
-    if math.isfinite(c.signal.rs):
-        ro = _vdiff(sys_, p, n, -1.0 / c.signal.rs)
-        return Readout(ro.r, 1.0)
-    return Readout(np.zeros(sys_.stamper.size, complex), 1.0)
-
-
-def _probe_s(sys_: System) -> complex:
-    """A frequency away from any pole to test for structural singularity."""
-    return 2j * math.pi * 1234.567 + 321.0
+#: a frequency away from any pole, to tell a structurally singular system (the table's Rout rule)
+PROBE_S = 2j * math.pi * 1234.567 + 321.0
 
 
 def scenario(c: Circuit, quantity: str) -> Scenario:
-    """Stamp the system that defines ``quantity`` and its read-outs.
+    """Stamp the system that defines ``quantity`` (:mod:`solver.analysis.scenarios`) and its read-outs.
 
     Parameters
     ----------
@@ -135,6 +119,11 @@ def scenario(c: Circuit, quantity: str) -> Scenario:
     -------
     Scenario
 
+    Raises
+    ------
+    ResponseError
+        When the circuit does not define the quantity.
+
     Examples
     --------
     >>> from solver import loads
@@ -144,46 +133,25 @@ def scenario(c: Circuit, quantity: str) -> Scenario:
     >>> round(float(abs(h[0])), 4)
     0.7071
     """
-    current = c.signal.kind == "A"
-    if quantity in ("Gv", "Gvo") and current:
-        raise ResponseError(f"{quantity} needs a voltage signal; this circuit has a current signal (use Zt)")
-    if quantity in ("Zt", "Zto") and not current:
-        raise ResponseError(f"{quantity} needs a current signal; this circuit has a voltage signal (use Gv)")
-    if quantity not in QUANTITIES:
-        raise ResponseError(f"unknown quantity '{quantity}'")
-    has_load = c.load is not None
-    op, on = c.output_port
-    if quantity == "Rout":
-        els = small_signal_elements(c) + signal_elements(c, 0.0, with_source=False)
-        sys_ = assemble(els + [CurrentSource("{test}", (on, op), 1.0, None, "", None)], c.ground)
-        try:
-            sys_.solve(_probe_s(sys_))
-            return Scenario(quantity, sys_, _vdiff(sys_, op, on))
-        except SingularSystem:
-            # a stiff (ideal) voltage output: drive it with 1 V, Rout = 1 / i_test
-            sys_ = assemble(els + [VoltageSource("{test}", (op, on), 1.0, None, "", None)], c.ground)
-            one = Readout(np.zeros(sys_.stamper.size, complex), 1.0)
-            return Scenario(quantity, sys_, one, _branch(sys_, "{test}", -1.0))
-    if quantity == "Ai" and not has_load:
-        raise ResponseError("Ai needs a load")
-    loaded = has_load and quantity not in ("Avo", "Gvo", "Zto")
-    sys_ = _drive(c, loaded)
-    p, n = c.signal.nodes
-    v_out = _vdiff(sys_, op, on)
-    if quantity in ("Gv", "Gvo", "Zt", "Zto"):
-        return Scenario(quantity, sys_, v_out)
-    v_in = _vdiff(sys_, p, n)
-    if quantity in ("Av", "Avo"):
-        return Scenario(quantity, sys_, v_out, v_in)
-    i_in = _input_current(c, sys_)
-    if quantity == "Rin":
-        return Scenario(quantity, sys_, v_in, i_in)
-    lp, ln = c.load.nodes
-    return Scenario(quantity, sys_, _vdiff(sys_, lp, ln, 1.0 / c.load.value), i_in)
+    why = table.why_undefined(c, quantity)
+    if why:
+        raise ResponseError(why)
+    base = small_signal_elements(c)
+    orders = table.ROUT_ORDER if quantity == "Rout" else table.ROUT_ORDER[:1]
+    for k, rout in enumerate(orders):
+        m = table.measurement(c, quantity, rout, base)
+        sys_ = assemble(list(m.config.elements), c.ground)
+        if k + 1 < len(orders):
+            try:
+                sys_.solve(PROBE_S)
+            except SingularSystem:
+                continue  # the table's next Rout measurement
+        return Scenario(quantity, sys_, _readout(sys_, m.num), None if m.den is None else _readout(sys_, m.den))
+    raise AssertionError("unreachable")
 
 
 def default_quantity(c: Circuit) -> str:
-    return "Zt" if c.signal.kind == "A" else "Gv"
+    return table.main_gain(c)
 
 
 # --- evaluation over many frequencies ------------------------------------------------------------
@@ -588,7 +556,7 @@ def midband_frequency(c: Circuit, f_from: float = 1e-2, f_to: float = 1e12) -> f
     >>> 100 < midband_frequency(c) < 10000
     True
     """
-    if not c.reactive:
+    if not is_reactive(c):
         return None
     sc = scenario(c, default_quantity(c))
     f = frequencies(f_from, f_to, per_decade=10)

@@ -35,12 +35,11 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+from solver.analysis import scenarios as table
 from solver.circuit.elements import Capacitor, CurrentSource, Element, Inductor, VoltageSource
-from solver.engine.mna import SingularSystem, assemble
 from solver.circuit.model import Circuit
-from solver.analysis.ports import load_element, signal_elements, small_signal_elements
+from solver.engine.mna import SingularSystem, assemble
 
-UNLOADED = ("Avo", "Gvo", "Zto")
 MAX_CAPACITORS = 200
 
 
@@ -70,14 +69,9 @@ class Estimates:
 
 
 def _config(c: Circuit, quantity: str, drive: bool) -> list[Element]:
-    els = small_signal_elements(c)
-    if drive:
-        els += signal_elements(c, 1.0)
-    else:
-        els += signal_elements(c, 0.0, with_source=c.signal.kind == "V")
-    if c.load is not None and quantity not in UNLOADED:
-        els.append(load_element(c))
-    return els
+    """The quantity's configuration of the scenario table: driven by the signal, or zeroed."""
+    loaded = table.TABLE[quantity].loaded
+    return list(table.configuration(c, "signal" if drive else "zeroed", loaded).elements)
 
 
 def _with(els: list[Element], open_: set[str], short: set[str]) -> list[Element]:

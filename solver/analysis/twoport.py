@@ -24,9 +24,6 @@ D. M. Pozar, *Microwave Engineering*, 4th ed., sections 4.2-4.4 (impedance,
 admittance, scattering and ABCD matrices; Table 4.2 conversions), from memory.
 A. S. Sedra, K. C. Smith, *Microelectronic Circuits*, 7th ed., appendix C
 (two-port network parameters z, y, h, g), from memory.
-Touchstone File Format Specification, version 1.1, EIA/IBIS Open Forum, 2002
-(option line ``# <unit> <parameter> <format> R <n>``; 2-port data order
-N11 N21 N12 N22).
 """
 from __future__ import annotations
 
@@ -38,7 +35,7 @@ import numpy as np
 from solver.circuit.elements import CurrentSource, Element, Resistor, VoltageSource
 from solver.engine.mna import SingularSystem, assemble
 from solver.circuit.model import Circuit
-from solver.analysis.ports import small_signal_elements
+from solver.circuit.views import small_signal_elements
 
 NAMES = ("z", "y", "h", "g", "abcd", "s")
 #: units of the four entries (11, 12, 21, 22) of each matrix, for the report
@@ -61,10 +58,6 @@ def z_to_y(z):
     return np.linalg.inv(z)
 
 
-def y_to_z(y):
-    return np.linalg.inv(y)
-
-
 def y_to_h(y):
     y11 = y[0, 0]
     return np.array([[1 / y11, -y[0, 1] / y11], [y[1, 0] / y11, _det(y) / y11]], complex)
@@ -72,10 +65,6 @@ def y_to_h(y):
 
 def h_to_g(h):
     return np.linalg.inv(h)
-
-
-def g_to_h(g):
-    return np.linalg.inv(g)
 
 
 def z_to_abcd(z):
@@ -241,70 +230,3 @@ def s_sweep(c: Circuit, freqs: np.ndarray, z0: float = 50.0) -> np.ndarray:
     xs = [solve_many(sys_, s) for sys_ in systems]
     return _s_from_solutions(systems, xs, ports)
 
-
-# --- Touchstone 1.1 ---------------------------------------------------------------------------
-def touchstone(freqs, s, z0: float = 50.0, comments: list[str] | None = None) -> str:
-    """Touchstone 1.1 text of 2-port S-parameters, real/imaginary format, frequencies in Hz.
-
-    Examples
-    --------
-    >>> txt = touchstone([1e3], np.array([[[0.1, 0.9], [0.9, 0.1]]]), 75.0)
-    >>> txt.splitlines()[-2]
-    '# HZ S RI R 75'
-    """
-    lines = [f"! {t}" for t in (comments or [])]
-    lines.append(f"# HZ S RI R {z0:g}")
-    for f, m in zip(freqs, s):
-        cells = [m[0, 0], m[1, 0], m[0, 1], m[1, 1]]  # 2-port order: N11 N21 N12 N22
-        lines.append(f"{float(f):.10e} " + " ".join(f"{v.real:.12e} {v.imag:.12e}" for v in cells))
-    return "\n".join(lines) + "\n"
-
-
-_FREQ_UNIT = {"HZ": 1.0, "KHZ": 1e3, "MHZ": 1e6, "GHZ": 1e9}
-
-
-def read_touchstone(text: str):
-    """Read 2-port S data from Touchstone 1.1 text (any of RI, MA, DB; HZ..GHZ).
-
-    Returns
-    -------
-    freqs : ndarray (N,), Hz
-    s : ndarray (N, 2, 2)
-    z0 : float
-    """
-    unit, fmt, z0 = 1e9, "MA", 50.0  # the format's defaults: GHZ S MA R 50
-    values: list[float] = []
-    for raw in text.splitlines():
-        line = raw.split("!", 1)[0].strip()
-        if not line:
-            continue
-        if line.startswith("#"):
-            words = line[1:].upper().split()
-            i = 0
-            while i < len(words):
-                w = words[i]
-                if w in _FREQ_UNIT:
-                    unit = _FREQ_UNIT[w]
-                elif w in ("RI", "MA", "DB"):
-                    fmt = w
-                elif w == "R":
-                    z0 = float(words[i + 1])
-                    i += 1
-                elif w != "S":
-                    raise ValueError(f"unsupported option '{w}'")
-                i += 1
-            continue
-        values.extend(float(v) for v in line.split())
-    if len(values) % 9:
-        raise ValueError("2-port data come in groups of 9 numbers")
-    data = np.array(values, float).reshape(-1, 9)
-    freqs = data[:, 0] * unit
-    a, b = data[:, 1::2], data[:, 2::2]
-    if fmt == "RI":
-        v = a + 1j * b
-    else:
-        mag = a if fmt == "MA" else 10 ** (a / 20)
-        v = mag * np.exp(1j * np.radians(b))
-    s = np.empty((len(freqs), 2, 2), complex)
-    s[:, 0, 0], s[:, 1, 0], s[:, 0, 1], s[:, 1, 1] = v[:, 0], v[:, 1], v[:, 2], v[:, 3]
-    return freqs, s, z0

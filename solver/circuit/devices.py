@@ -53,14 +53,15 @@ def needs_bias(dev: Device) -> bool:
     return "id" not in p and "rd" not in p
 
 
-def small_signal(dev: Device) -> dict[str, float]:
+def small_signal(dev: Device, op: dict | None = None) -> dict[str, float]:
     """Derive the small-signal parameters of a device from its evaluated parameters.
 
     Parameters
     ----------
     dev : Device
-        ``dev.params`` holds the values the netlist gave (SI units); for a
-        device whose bias was solved, ``dev.op`` holds its operating point.
+        ``dev.params`` holds the values the netlist gave (SI units).
+    op : dict, optional
+        For a device whose bias was solved, its operating point (ic, id, vov).
 
     Returns
     -------
@@ -75,7 +76,7 @@ def small_signal(dev: Device) -> dict[str, float]:
     0.03868
     """
     p = dict(dev.params)
-    for key, val in dev.op.items():
+    for key, val in (op or {}).items():
         if key in ("ic", "id", "vov") and isinstance(val, (int, float)):
             p.setdefault(key, abs(val))
     if dev.is_bjt:

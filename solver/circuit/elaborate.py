@@ -17,12 +17,12 @@ from solver.language import units as U
 from solver.circuit.devices import BJT_QUANTITIES, DIODE_QUANTITIES, MOS_QUANTITIES, DeviceError, small_signal
 from solver.diagnostics import Diagnostics, InputError, Loc, error
 from solver.circuit.elements import CCCS, CCVS, VCCS, VCVS, Capacitor, Inductor, Nullor, Resistor, VoltageSource
-from solver.circuit.model import Circuit, ClaimSpec, Device, Load, Signal, Supply
+from solver.circuit.model import PORT_QUANTITIES, Circuit, ClaimSpec, Device, Load, Signal, Supply
 from solver.language.statements import BlockStart, Claim, ElementStmt, End, Ground, Let, Netlist, Output, Param, Title, Use
 
 MAX_NESTING = 32
 MAX_ELEMENTS = 2_000_000
-QUANTITIES = ("Rin", "Rout", "Avo", "Av", "Gv", "Gvo", "Ai", "Zt", "Zto")
+QUANTITIES = PORT_QUANTITIES
 
 _BJT_PARAMS = {"ic": U.AMP, "beta": U.ONE, "va": U.VOLT, "temp": U.KELVIN, "gm": U.SIEMENS,
                "rpi": U.OHM, "ro": U.OHM, "rx": U.OHM, "cpi": U.FARAD, "cmu": U.FARAD, "ft": U.HERTZ,
@@ -74,6 +74,18 @@ _DIMS = {"resistor": U.OHM, "capacitor": U.FARAD, "inductor": U.HENRY, "vccs": U
 def _suggest(word: str, choices) -> str:
     close = difflib.get_close_matches(word, list(choices), n=1)
     return f"; did you mean '{close[0]}'?" if close else ""
+
+
+def undefined_message(name: str, known) -> str:
+    """An undefined name, with the nearest defined names; a name that reads like an RKM code
+    (``R9``, ``k7``) is never taken as a number: the code is written with a leading digit."""
+    close = difflib.get_close_matches(name, sorted(known), n=3, cutoff=0.5)
+    msg = f"undefined name '{name}'"
+    if close:
+        msg += "; nearest defined: " + ", ".join(f"'{n}'" for n in close)
+    if U.looks_like_rkm(name):
+        msg += f" (a value in the RKM code starts with a digit: write 0{name} for {U.rkm_example(name)})"
+    return msg
 
 
 @dataclass
@@ -134,14 +146,12 @@ class Resolver:
         if entry is None:
             if head in ex.CONSTANTS and not rest:
                 return None, head
-            if not rest and U.rkm_name_value(head) is not None:
-                return None, ("rkm", head)
             known = set()
             s = scope
             while s:
                 known |= set(s.names)
                 s = s.parent
-            raise error(ref.loc, f"undefined name '{head}'{_suggest(head, known)}")
+            raise error(ref.loc, undefined_message(head, known))
         entry.used = True
         while entry.kind == "instance" and rest:
             inner = entry.scope.names.get(rest[0])
@@ -171,14 +181,24 @@ class Resolver:
             return entry, rest[0]
         return entry, None
 
+    def rebound(self, devices) -> "Resolver":
+        """A resolver of the same names whose devices are ``devices`` (e.g. a biased copy's).
+
+        Values are evaluated afresh (nothing memoised carries over), so a name that waited
+        for the bias (``Q1.gm`` in a claim or a ``let``) has its value here.
+        """
+        new = Resolver(self.diags, self.ground)
+        new.top = self.top
+        new.devices = dict(self.devices)
+        new.devices.update({d.name: d for d in devices})
+        return new
+
     def lookup(self, scope: Scope):
         return lambda ref: self.value_of_ref(ref, scope)
 
     def value_of_ref(self, ref: ex.Ref, scope: Scope) -> ex.Value:
         entry, attr = self.resolve(ref, scope)
         if entry is None:
-            if isinstance(attr, tuple):
-                return ex.Value(U.rkm_name_value(attr[1]), U.OHM)
             return ex.Value(ex.CONSTANTS[attr], None)
         return self.value_of(entry, attr, ref.loc)
 
@@ -687,10 +707,8 @@ class _Elaborator:
         for d in c.devices:
             for k, v in d.ss.items():
                 c.values[f"{d.name}.{k}"] = v
-        if c.signal is None:
-            self.diags.error(Loc(c.file, 1, 1), "the circuit has no signal: add 'signal NAME (P, N) VALUE'")
-        if c.load is None and c.output is None:
-            self.diags.error(Loc(c.file, 1, 1), "the circuit has no output port: add a 'load' or an 'output (P, N)'")
+        # a missing signal or output port is the analysis' business (solver.analysis.pipeline):
+        # a DC operating point needs neither
         if c.load is not None and c.output is not None and set(c.load.nodes) != set(c.output):
             self.diags.error(c.output_loc, f"the output port differs from the load's nodes "
                              f"({', '.join(c.load.nodes)}); the load defines the output port")

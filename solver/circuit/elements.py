@@ -250,5 +250,3 @@ class Nullor(_Branch):
     def current(self, st):
         return [(st.branch(self), -1, 0)]
 
-
-PRIMITIVES = (Resistor, Capacitor, Inductor, VoltageSource, CurrentSource, VCCS, VCVS, CCCS, CCVS, Nullor)

@@ -8,12 +8,16 @@ analysis treats them differently (small-signal: a voltage supply is a short).
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 from solver.diagnostics import Diagnostic, Loc
 from solver.circuit.elements import Element
 from solver.language.expr import Expr
+
+
+#: the port quantities a claim (and every analysis) may name; what each one measures is the
+#: scenario table's business (solver.analysis.scenarios), which has one row per name
+PORT_QUANTITIES = ("Rin", "Rout", "Avo", "Av", "Gv", "Gvo", "Zt", "Zto", "Ai")
 
 
 @dataclass
@@ -26,10 +30,10 @@ class Device:
     params: dict[str, float]
     model: str = "hybrid-pi"  # BJT only: "hybrid-pi" | "t"
     loc: Loc | None = None
-    #: small-signal parameters (gm, rpi, ro, ...), filled by solver.circuit.devices
+    #: small-signal parameters (gm, rpi, ro, ...): set at elaboration for a device given by its
+    #: operating point (ic=, gm=, ...); empty for one that needs the bias solve, whose biased copy
+    #: (solver.analysis.bias.biased) carries them
     ss: dict[str, float] = field(default_factory=dict)
-    #: set by the bias solve: operating point values (ic, vbe, region, ...)
-    op: dict = field(default_factory=dict)
 
     @property
     def is_bjt(self) -> bool:
@@ -61,10 +65,6 @@ class Signal:
     value: float
     rs: float  # series (V) or parallel (A) resistance; 0 or inf when absent
     loc: Loc | None = None
-
-    @property
-    def has_rs(self) -> bool:
-        return (self.kind == "V" and self.rs != 0) or (self.kind == "A" and math.isfinite(self.rs))
 
 
 @dataclass
@@ -104,8 +104,11 @@ class Circuit:
     warnings: list[Diagnostic] = field(default_factory=list)
     #: name resolution for claims and derived expressions (see solver.circuit.elaborate.Resolver)
     resolver: object = None
-    #: the DC operating point once solved (solver.analysis.bias.BiasResult), reused by later analyses
-    bias: object = None
+
+    @property
+    def has_output(self) -> bool:
+        """True when the circuit names an output port (a load or an ``output`` line)."""
+        return self.output is not None or self.load is not None
 
     @property
     def output_port(self) -> tuple[str, str]:
@@ -114,12 +117,9 @@ class Circuit:
         return self.load.nodes
 
     @property
-    def reactive(self) -> bool:
-        from solver.circuit.devices import expand
-        if any(e.reactive for e in self.elements):
-            return True
-        return any(e.reactive for d in self.devices for e in expand(d))
-
-    @property
     def transistors(self) -> list[Device]:
         return [d for d in self.devices if d.kind != "diode"]
+
+    def device(self, name: str) -> Device | None:
+        """The device of that full name (``Q1``, ``S1.Q``), or None."""
+        return next((d for d in self.devices if d.name == name), None)

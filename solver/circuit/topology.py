@@ -37,9 +37,10 @@ from __future__ import annotations
 import difflib
 from typing import NamedTuple
 
-from solver.diagnostics import MAX_REPORTED, Diagnostic, Loc
-from solver.circuit.elements import Element, Nullor
+from solver.circuit.elements import Element, Inductor, Nullor, Resistor
 from solver.circuit.model import Circuit
+from solver.circuit.views import dc_elements, is_reactive, small_signal_elements
+from solver.diagnostics import MAX_REPORTED, Diagnostic, Loc
 
 GND = "\0gnd"  # every reference-node alias maps here
 MAX_LISTED = 8
@@ -118,7 +119,8 @@ class _Sets:
         return True
 
 
-def _show(node: str, circuit: Circuit) -> str:
+def describe_node(node: str, circuit: Circuit) -> str:
+    """A node as the messages name it (never an internal name)."""
     if node == GND:
         return "the reference node"
     if node == "{sig}":
@@ -126,7 +128,8 @@ def _show(node: str, circuit: Circuit) -> str:
     return f"'{node}'"
 
 
-def _names(items, key=str) -> str:
+def list_names(items, key=str) -> str:
+    """At most MAX_LISTED items, then a count of the rest."""
     items = list(items)
     shown = ", ".join(key(x) for x in items[:MAX_LISTED])
     return shown + (f" and {len(items) - MAX_LISTED} more" if len(items) > MAX_LISTED else "")
@@ -143,6 +146,26 @@ def _opamp(b: Branch) -> str:
 def _first_loc(bs, fallback: Loc) -> Loc:
     locs = [b.loc for b in bs if b.loc is not None]
     return min(locs, key=lambda l: (l.line, l.col)) if locs else fallback
+
+
+class _Ctx(NamedTuple):
+    """What every pass of :func:`check_branches` reads."""
+
+    circuit: Circuit
+    bs: list
+    where: Loc
+    dc: str
+    context: str
+    ports: list
+
+    @property
+    def present(self) -> set[str]:
+        """Every node a branch touches or senses, and the reference."""
+        out = {GND}
+        for b in self.bs:
+            out.update(b.nodes)
+            out.update(b.senses)
+        return out
 
 
 def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_nodes=(),
@@ -172,34 +195,43 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
         with its own warning): their voltage does not change any other result.
     reactive : bool, optional
         Whether the circuit has capacitors or inductors (the DC wording says what the
-        view left out); by default ``circuit.reactive``.
+        view left out); by default :func:`solver.circuit.views.is_reactive`.
 
     Returns
     -------
     list of Diagnostic
     """
-    where = Loc(circuit.file, 1, 1)
-    if view == "dc" and (circuit.reactive if reactive is None else reactive):
+    if view == "dc" and (is_reactive(circuit) if reactive is None else reactive):
         dc = " in the DC view (capacitors open, inductors shorted)"
     else:
         dc = ""
-    diags: list[Diagnostic] = []
-    ground = circuit.ground
-    ports = [GND if n in ground else n for n in port_nodes]
-
-    # 1. a node that only a port observes does not exist in the system
-    present = {GND}
-    for b in bs:
-        present.update(b.nodes)
-        present.update(b.senses)
-    for n in dict.fromkeys(ports):
-        if n not in present:
-            diags.append(Diagnostic("error", circuit.output_loc or (circuit.load.loc if circuit.load else where),
-                                    f"port node {_show(n, circuit)} is not connected to any element{context}{dc}"))
+    k = _Ctx(circuit, bs, Loc(circuit.file, 1, 1), dc, context,
+             [GND if n in circuit.ground else n for n in port_nodes])
+    diags = _port_nodes(k)
     if diags:
         return diags
+    diags = _voltage_loops(k) + _nullor_inputs(k) + _floating_groups(k, tied)
+    if single:
+        diags += _single_connections(k)
+    return diags
 
-    # 2. loops of voltage-defined branches
+
+def _port_nodes(k: _Ctx) -> list[Diagnostic]:
+    """A node that only a port observes does not exist in the system."""
+    circuit, bs, where, dc, context = k.circuit, k.bs, k.where, k.dc, k.context
+    diags: list[Diagnostic] = []
+    present = k.present
+    for n in dict.fromkeys(k.ports):
+        if n not in present:
+            diags.append(Diagnostic("error", circuit.output_loc or (circuit.load.loc if circuit.load else where),
+                                    f"port node {describe_node(n, circuit)} is not connected to any element{context}{dc}"))
+    return diags
+
+
+def _voltage_loops(k: _Ctx) -> list[Diagnostic]:
+    """Loops of voltage-defined branches: Kirchhoff's voltage law fixes a voltage twice."""
+    circuit, bs, where, dc, context = k.circuit, k.bs, k.where, k.dc, k.context
+    diags: list[Diagnostic] = []
     vsets, vadj = _Sets(), {}
     for b in bs:
         if b.kind != "v":
@@ -209,13 +241,20 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
             loop = [b] if a == c else _path(vadj, a, c) + [b]
             diags.append(Diagnostic(
                 "error", b.loc or where,
-                f"a loop of voltage-defined branches{dc}: {_names(loop, _label)}; Kirchhoff's voltage law "
+                f"a loop of voltage-defined branches{dc}: {list_names(loop, _label)}; Kirchhoff's voltage law "
                 f"fixes the same voltage twice (add a resistance in the loop or remove one source){context}"))
             continue
         vadj.setdefault(a, []).append((c, b))
         vadj.setdefault(c, []).append((a, b))
+    return diags
 
-    # 2b. an ideal op-amp's input pair (a nullator: v+ = v-) closing a loop of voltage-defined
+
+def _nullor_inputs(k: _Ctx) -> list[Diagnostic]:
+    """An ideal op-amp's input pair (a nullator: v+ = v-) on one node, or closing a loop
+    of voltage-defined branches (op-amp outputs, norators, left out: their voltage is free) or
+    of other input pairs: the input condition then repeats what the loop fixes."""
+    circuit, bs, where, dc, context = k.circuit, k.bs, k.where, k.dc, k.context
+    diags: list[Diagnostic] = []
     # branches (op-amp outputs, norators, left out: their voltage is free) or of other input
     # pairs: the input condition then repeats what the loop fixes, and nothing sets the output
     nsets, nadj = _Sets(), {}
@@ -232,24 +271,31 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
         if a == c:
             diags.append(Diagnostic(
                 "error", b.loc or where,
-                f"{name} has both inputs on {_show(a, circuit)}{dc}: its input condition v+ = v- says nothing, "
+                f"{name} has both inputs on {describe_node(a, circuit)}{dc}: its input condition v+ = v- says nothing, "
                 f"so nothing sets its output (connect the inputs to different nodes){context}"))
             continue
         if not nsets.union(a, c):
             loop = _path(nadj, a, c)
             diags.append(Diagnostic(
                 "error", b.loc or where,
-                f"the inputs of {name}, {_show(a, circuit)} and {_show(c, circuit)}, are already tied by "
-                f"{_names(loop, lambda x: _label(x) if not x.nullor else 'the inputs of ' + _opamp(x))}"
+                f"the inputs of {name}, {describe_node(a, circuit)} and {describe_node(c, circuit)}, are already tied by "
+                f"{list_names(loop, lambda x: _label(x) if not x.nullor else 'the inputs of ' + _opamp(x))}"
                 f"{dc}: its input condition v+ = v- repeats what they fix, so nothing sets its output "
                 f"(an input at a supply rail or the signal is an AC short; feed the output back instead){context}"))
             continue
         nadj.setdefault(a, []).append((c, b))
         nadj.setdefault(c, []).append((a, b))
+    return diags
 
-    # 3. groups with no path to the reference, through impedances and voltage-defined branches
+
+def _floating_groups(k: _Ctx, tied: bool) -> list[Diagnostic]:
+    """Groups with no path to the reference through impedances and voltage-defined
+    branches: a cut set of current sources, floating, or only sensed (see ``tied``)."""
+    circuit, bs, where, dc, context = k.circuit, k.bs, k.where, k.dc, k.context
+    diags: list[Diagnostic] = []
     sets = _Sets()
     find = sets.find
+    present = k.present
     for n in present:
         find(n)
     for b in bs:
@@ -276,13 +322,13 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
             for r in {find(n) for n in b.senses} - {root, ra, rb}:
                 sensed.setdefault(r, []).append(b)
         for r, nodes in list(members.items())[:MAX_REPORTED]:
-            shown = _names(sorted(nodes), lambda n: _show(n, circuit))
+            shown = list_names(sorted(nodes), lambda n: describe_node(n, circuit))
             one = len(nodes) == 1
             what = "node" if one else "nodes"
             if r in cut:
                 c_ = cut[r]
                 msg = (f"{what} {shown} connect{'s' if one else ''} to the rest of the circuit only through "
-                       f"current-defined branch{'es' if len(c_) > 1 else ''} {_names(c_, _label)}{dc}: a cut set "
+                       f"current-defined branch{'es' if len(c_) > 1 else ''} {list_names(c_, _label)}{dc}: a cut set "
                        f"of current sources leaves {'its' if one else 'their'} voltage undefined (add a "
                        f"resistance to the reference, e.g. a transistor's ro or a bias resistor){context}")
                 loc = _first_loc(c_, where)
@@ -290,40 +336,44 @@ def check_branches(bs: list[Branch], circuit: Circuit, view: str = "ac", port_no
                 if tied and r not in sensed:
                     continue
                 msg = (f"{what} {shown} {'has' if one else 'have'} no path to the reference node{dc}{context}"
-                       f" (joined by {_names(inner[r], _label)})")
+                       f" (joined by {list_names(inner[r], _label)})")
                 if tied:
-                    msg += (f"; {_names(sensed[r], _label)} read{'s' if len(sensed[r]) == 1 else ''}"
+                    msg += (f"; {list_names(sensed[r], _label)} read{'s' if len(sensed[r]) == 1 else ''}"
                             f" {'its' if one else 'their'} voltage, so the bias is undefined (add a bias"
                             " resistor to a fixed voltage)")
                 loc = _first_loc(inner[r], where)
             else:
                 s_ = sensed.get(r, [])
-                msg = (f"{what} {shown} {'is' if one else 'are'} only sensed by {_names(s_, _label)}"
+                msg = (f"{what} {shown} {'is' if one else 'are'} only sensed by {list_names(s_, _label)}"
                        f" (a control input draws no current): nothing sets {'its' if one else 'their'}"
                        f" voltage{dc}{context}")
                 loc = _first_loc(s_, where)
             diags.append(Diagnostic("error", loc, msg))
+    return diags
 
-    # 4. nodes with a single connection (warnings), with a spelling hint
-    if single:
-        count: dict[str, int] = {}
-        first: dict[str, Branch] = {}
-        for b in bs:
-            for n in {*b.nodes, *b.senses}:
-                count[n] = count.get(n, 0) + 1
-                first.setdefault(n, b)
-        for n in ports:
+
+def _single_connections(k: _Ctx) -> list[Diagnostic]:
+    """Nodes with a single connection (warnings), with a spelling hint."""
+    circuit, bs, where, dc, context = k.circuit, k.bs, k.where, k.dc, k.context
+    diags: list[Diagnostic] = []
+    count: dict[str, int] = {}
+    first: dict[str, Branch] = {}
+    for b in bs:
+        for n in {*b.nodes, *b.senses}:
             count[n] = count.get(n, 0) + 1
-        lonely = [n for n, k in count.items() if k == 1 and n != GND and not n.startswith("{") and ":" not in n]
-        busy = [n for n, k in count.items() if k >= 2 and n != GND] if len(lonely) <= MAX_REPORTED else []
-        at = _node_locs(circuit) if lonely else {}
-        for n in lonely[:MAX_REPORTED]:
-            b = first[n]
-            hint = difflib.get_close_matches(n, busy, n=1) if busy else []
-            diags.append(Diagnostic(
-                "warning", at.get((b.origin, n)) or b.loc or where,
-                f"node {_show(n, circuit)} has a single connection ({_label(b)}): no current flows "
-                f"through it{'; did you mean ' + repr(hint[0]) + '?' if hint else ''}"))
+            first.setdefault(n, b)
+    for n in k.ports:
+        count[n] = count.get(n, 0) + 1
+    lonely = [n for n, m in count.items() if m == 1 and n != GND and not n.startswith("{") and ":" not in n]
+    busy = [n for n, m in count.items() if m >= 2 and n != GND] if len(lonely) <= MAX_REPORTED else []
+    at = _node_locs(circuit) if lonely else {}
+    for n in lonely[:MAX_REPORTED]:
+        b = first[n]
+        hint = difflib.get_close_matches(n, busy, n=1) if busy else []
+        diags.append(Diagnostic(
+            "warning", at.get((b.origin, n)) or b.loc or where,
+            f"node {describe_node(n, circuit)} has a single connection ({_label(b)}): no current flows "
+            f"through it{'; did you mean ' + repr(hint[0]) + '?' if hint else ''}"))
     return diags
 
 
@@ -355,44 +405,39 @@ def _path(adj: dict, a: str, b: str) -> list[Branch]:
     return out[::-1]
 
 
-def check(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
-    """Topology diagnostics of a circuit in the configurations the port analysis solves.
-
-    The loaded drive (signal and load) and, with a load, the unloaded drive are
-    checked; messages of the second say "without the load". Devices whose
-    operating point is not known yet are left out (the bias solve checks them).
+def check(circuit: Circuit, configs, view: str = "ac") -> list[Diagnostic]:
+    """Topology diagnostics of the configurations an analysis solves.
 
     Parameters
     ----------
     circuit : Circuit
+        For names and locations.
+    configs : list of (list of Element, str)
+        Each configuration's elements and the words its messages end with
+        (e.g. " without the load"); the first is the main one. The scenario
+        table (:mod:`solver.analysis.scenarios`) gives them.
     view : "ac" or "dc"
 
     Returns
     -------
     list of Diagnostic
-        Errors first, then warnings, without repeats.
+        Errors first, then warnings, without repeats. Single connections are
+        counted once, in the AC view of the first configuration; after the
+        first configuration with errors the others are not checked (its errors
+        explain theirs).
 
     Examples
     --------
     >>> from solver.api import loads
+    >>> from solver.circuit.views import load_element, signal_elements, small_signal_elements
     >>> c = loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nresistor R2 (c, d) 1k\\nload RL (a, gnd) 1k\\n")
-    >>> [d.message.split(":")[0] for d in check(c) if d.severity == "error"]
+    >>> els = small_signal_elements(c) + signal_elements(c) + [load_element(c)]
+    >>> [d.message.split(":")[0] for d in check(c, [(els, "")]) if d.severity == "error"]
     ["nodes 'c', 'd' have no path to the reference node (joined by R2 (line 3))"]
     """
-    from solver.analysis.ports import load_element, signal_elements, small_signal_elements
-    if circuit.signal is None:
-        return []
-    base = small_signal_elements(_biased_part(circuit))
-    port_nodes = tuple(circuit.output_port) if (circuit.load or circuit.output) else ()
-    configs = []
-    if circuit.load is not None:
-        configs.append((base + signal_elements(circuit) + [load_element(circuit)], ""))
-        configs.append((base + signal_elements(circuit), " without the load"))
-    else:
-        configs.append((base + signal_elements(circuit), ""))
+    port_nodes = tuple(circuit.output_port) if circuit.has_output else ()
     seen, errors, warnings = set(), [], []
     for i, (elements, context) in enumerate(configs):
-        # single connections are a property of the netlist: counted once, in the AC view
         found = check_branches(branches(elements, circuit.ground, view), circuit, view, port_nodes, context,
                                single=(i == 0 and view == "ac"))
         if i == 0 and view != "ac":
@@ -405,7 +450,7 @@ def check(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
             seen.add(key)
             (errors if d.severity == "error" else warnings).append(d)
         if errors:
-            break  # the loaded configuration's errors explain the unloaded ones
+            break
     return _in_line_order(errors + warnings)
 
 
@@ -434,21 +479,19 @@ def check_two_port(circuit: Circuit, view: str = "ac") -> list[Diagnostic]:
     >>> [d.message.split(" (joined")[0] for d in check_two_port(c) if d.severity == "error"]
     ["nodes 'x', 'y' have no path to the reference node with both ports terminated"]
     """
-    from solver.circuit.elements import Resistor
-    from solver.analysis.ports import small_signal_elements
-    if circuit.signal is None or not (circuit.load or circuit.output):
+    if circuit.signal is None or not circuit.has_output:
         return []
     ends = [Resistor("port 1 termination", tuple(circuit.signal.nodes), 1.0, None, "", circuit.signal.loc),
             Resistor("port 2 termination", tuple(circuit.output_port), 1.0, None, "",
                      circuit.output_loc or (circuit.load.loc if circuit.load else None))]
-    network = branches(small_signal_elements(_biased_part(circuit)), circuit.ground, view)
+    network = branches(small_signal_elements(circuit), circuit.ground, view)
     present = {GND} | {n for b in network for n in (*b.nodes, *b.senses)}
     diags = []
     for k, end in enumerate(ends, 1):
         for n in dict.fromkeys(GND if n in circuit.ground else n for n in end.nodes):
             if n not in present:
                 diags.append(Diagnostic("error", end.loc or Loc(circuit.file, 1, 1),
-                                        f"port {k} node {_show(n, circuit)} is not connected to any element of "
+                                        f"port {k} node {describe_node(n, circuit)} is not connected to any element of "
                                         "the network (the two-port leaves out the signal and the load)"))
     if diags:
         return diags
@@ -519,169 +562,70 @@ def check_bias(circuit: Circuit, linear: list[Element]) -> list[Diagnostic]:
     return _in_line_order(diags)
 
 
-def _biased_part(c: Circuit) -> Circuit:
-    """The circuit without the devices whose operating point is not known yet (bias pending)."""
-    import dataclasses
-    if all(d.ss for d in c.devices):
-        return c
-    return dataclasses.replace(c, devices=[d for d in c.devices if d.ss])
+def check_dc_sources(circuit: Circuit, ac_checked: bool = False) -> list[Diagnostic]:
+    """The DC view's checks that every command runs: can the supplies' own laws hold?
 
+    Whatever the analysis, the circuit must have a DC state: a loop of voltage-defined
+    branches in the DC view (two supplies on one rail, an inductor across a supply) fixes
+    a voltage twice, and a group of nodes that a current supply feeds with no other DC path
+    (``supply I1 (b, c) 1 mA`` with nothing else at b) breaks Kirchhoff's current law. Both
+    are errors at the element's line. Floating groups are left to the analyses that need
+    them (the bias solve ties them to the reference; a small-signal analysis does not see DC).
 
-def require_sound(circuit: Circuit, view: str = "ac", two_port: bool = False) -> None:
-    """Run :func:`check`; raise InputError with every error, keep warnings on the circuit.
-
-    Parameters
-    ----------
-    circuit : Circuit
-    view : "ac" or "dc"
-        "dc" for a solve at 0 Hz and for the bias solve, "ac" otherwise.
-    two_port : bool
-        Check the network ``portwise twoport`` measures instead (:func:`check_two_port`).
-
-    Raises
-    ------
-    InputError
-        With every error (and the circuit's warnings), in line order. Devices
-        without an operating point are reported first, on their own.
-
-    Notes
-    -----
-    Warnings are added to ``circuit.warnings`` once (the commands print them).
+    With ``ac_checked`` (the small-signal checks run too) only what the AC view cannot see
+    is reported: loops through a supply that an inductor closes (in the AC view it is an
+    impedance; a loop of an inductor and the zeroed signal carries no DC source, so it
+    does not matter to a small-signal analysis) and the current supplies' cut sets (in the
+    AC view a current supply is open).
 
     Examples
     --------
     >>> from solver.api import loads
-    >>> c = loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nload RL (a, gnd) 1k\\n")
-    >>> require_sound(c)
-    >>> [d.message.split(" (")[0] for d in c.warnings]
-    ["node 'b' has a single connection"]
+    >>> c = loads("supply I1 (b, c) 1 mA\\nsignal VS (c, gnd) 1 V\\nresistor R1 (c, gnd) 1k\\n"
+    ...           "output (c, gnd)\\n")
+    >>> [d.loc.line for d in check_dc_sources(c)]
+    [1]
     """
-    from solver.diagnostics import InputError
-    errors = []
-    for dev in circuit.devices:
-        if not dev.ss:  # the bias solve fills it; without one the model is unknown
-            what = {"npn": "ic=", "pnp": "ic=", "nmos": "id= and vov=", "pmos": "id= and vov="}.get(dev.kind, "id=")
-            errors.append(Diagnostic("error", dev.loc or Loc(circuit.file, 1, 1),
-                                     f"{dev.name} has no operating point, so its small-signal model is unknown: "
-                                     f"give {what} (or gm=), or solve the bias first"))
-    if errors:
-        raise InputError(errors + [d for d in circuit.warnings if d.severity == "warning"])
-    diags = check_two_port(circuit, view) if two_port else check(circuit, view)
-    errors = [d for d in diags if d.severity == "error"]
-    if errors:
-        raise InputError(errors + [d for d in circuit.warnings + diags if d.severity == "warning"])
-    for d in diags:
-        if d not in circuit.warnings:
-            circuit.warnings.append(d)
+    current_supplies = {s.name for s in circuit.supplies if s.kind == "A"}
+    bs = [b._replace(senses=(), nullor=False) for b in branches(dc_elements(circuit), circuit.ground, "dc")
+          if b.kind != "i" or b.name in current_supplies]
+    bs += [b._replace(senses=()) for b in device_branches(circuit)]
+    dc = " in the DC view (capacitors open, inductors shorted)" if is_reactive(circuit) else " in the DC view"
+    k = _Ctx(circuit, bs, Loc(circuit.file, 1, 1), dc, "", [])
+    loops = _inductor_loops(k) if ac_checked else _voltage_loops(k)
+    return _in_line_order(loops + _floating_groups(k, tied=True))
 
 
-def _drive_systems(c: Circuit):
-    """(description, System) of the solves the port analysis makes, loaded one first."""
-    from solver.engine.mna import assemble
-    from solver.analysis.ports import load_element, signal_elements, small_signal_elements
-    base = small_signal_elements(c)
-    if c.load is not None:
-        yield "with the load", assemble(base + signal_elements(c) + [load_element(c)], c.ground)
-    yield "without the load", assemble(base + signal_elements(c), c.ground)
+def _inductor_loops(k: _Ctx) -> list[Diagnostic]:
+    """Loops of voltage-defined branches that an inductor closes (the DC view's own loops).
 
-
-def _unknown(name: str, c: Circuit, kinds: dict | None = None) -> str:
-    """``v(a)`` -> node 'a'; ``i(U1)`` -> the output current of op-amp U1; ``i(V1)`` -> the current of V1."""
-    inner = name[2:-1]
-    if name.startswith("v("):
-        return f"node {_show(inner, c)}"
-    if (kinds or {}).get(inner) is Nullor:
-        return f"the output current of op-amp {inner}"
-    return f"the current of {inner}"
-
-
-def _equation(name: str, c: Circuit, kinds: dict | None = None) -> str:
-    """The row of an unknown: KCL at a node, or the branch law of a voltage-defined element."""
-    inner = name[2:-1]
-    if name.startswith("v("):
-        return f"KCL at {_show(inner, c)}"
-    if (kinds or {}).get(inner) is Nullor:
-        return f"the input condition of op-amp {inner} (v+ = v-)"
-    return f"the voltage law of {inner}"
-
-
-def explain_singular(c: Circuit, frequency_hz: float, what: str) -> list[Diagnostic]:
-    """Diagnostics for a system that the checks passed but that cannot be solved (+ the circuit's warnings).
-
-    Names the unknowns no equation determines and the dependent equations, from
-    :func:`solver.engine.mna.diagnose` (structural rank by bipartite matching, then the
-    null space), for the first configuration that is singular.
-
-    Parameters
-    ----------
-    c : Circuit
-    frequency_hz : float
-        The analysis frequency the solve failed at.
-    what : str
-        The port analysis' own message, used when no drive configuration is singular.
-
-    Returns
-    -------
-    list of Diagnostic
-        One error, located at the first element on an undetermined node, then the warnings.
+    The other voltage-defined branches are joined first without a word (a loop of them is
+    the AC view's to report), then each inductor: one whose ends are already joined closes
+    a loop.
     """
-    import math
-
-    from solver.engine.mna import SingularSystem, diagnose
-    s = 2j * math.pi * frequency_hz
-    where = c.signal.loc if c.signal and c.signal.loc else Loc(c.file, 1, 1)
-    for desc, system in _drive_systems(c):
-        try:
-            system.solve(s)
+    inductors = {e.name for e in k.circuit.elements if isinstance(e, Inductor)}
+    supplies = {s.name for s in k.circuit.supplies}
+    sets, adj, diags = _Sets(), {}, []
+    for b in k.bs:
+        if b.kind == "v" and b.name not in inductors and b.nodes[0] != b.nodes[1] and sets.union(*b.nodes):
+            adj.setdefault(b.nodes[0], []).append((b.nodes[1], b))
+            adj.setdefault(b.nodes[1], []).append((b.nodes[0], b))
+    for b in k.bs:
+        if b.kind != "v" or b.name not in inductors:
             continue
-        except SingularSystem:
-            pass
-        info = diagnose(system, s)
-        kind = "structurally singular (the pattern of connections alone)" if info.structural else \
-            "numerically singular (the element values cancel)"
-        msg = (f"the circuit {desc} is {kind} at {frequency_hz:g} Hz: rank {'at most ' if info.estimated else ''}"
-               f"{info.rank} of {info.size}")
-        kinds = {e.name: type(e) for e in system.stamper.elements if e.needs_branch}
-        if info.undetermined:
-            msg += f"; undetermined: {_names(info.undetermined, lambda u: _unknown(u, c, kinds))}"
-        if info.redundant:
-            msg += f"; dependent equations: {_names(info.redundant, lambda u: _equation(u, c, kinds))}"
-        if not info.undetermined and not info.redundant:
-            msg += " (too large for the dense analysis that names the nodes)"
-        nodes = {u[2:-1] for u in info.undetermined if u.startswith("v(")}
-        near = [e.loc for e in system.stamper.elements if e.loc and nodes & set(e.nodes)]
-        return [Diagnostic("error", min(near, key=lambda l: (l.line, l.col)) if near else where, msg)] + c.warnings
-    return [Diagnostic("error", where, f"{what} (the system is singular at the output port test)")] + c.warnings
-
-
-def warn_conditioning(c: Circuit, frequency_hz: float) -> None:
-    """Warn (once, on ``circuit.warnings``) when the loaded system is ill-conditioned.
-
-    Parameters
-    ----------
-    c : Circuit
-    frequency_hz : float
-
-    Notes
-    -----
-    The threshold is :data:`solver.engine.mna.COND_WARN` on the row- and
-    column-equilibrated matrix, so that mixing siemens, farads and unit
-    entries alone does not trigger it.
-    """
-    import math
-
-    from solver.engine.mna import COND_WARN, condition_estimate
-    s = 2j * math.pi * frequency_hz
-    desc, system = next(iter(_drive_systems(c)))
-    cond = condition_estimate(system, s)
-    if cond > COND_WARN:
-        where = c.signal.loc if c.signal and c.signal.loc else Loc(c.file, 1, 1)
-        d = Diagnostic("warning", where, f"the system {desc} is ill-conditioned at {frequency_hz:g} Hz "
-                       f"(condition estimate {cond:.2g} > {COND_WARN:.0g}): results may have few correct "
-                       "digits; look for element values many decades apart or nearly cancelling")
-        if d not in c.warnings:
-            c.warnings.append(d)
-
+        a, c = b.nodes
+        if a == c or not sets.union(a, c):
+            loop = [b] if a == c else _path(adj, a, c) + [b]
+            if not supplies & {x.name for x in loop}:
+                continue
+            diags.append(Diagnostic(
+                "error", b.loc or k.where,
+                f"a loop of voltage-defined branches{k.dc}: {list_names(loop, _label)}; Kirchhoff's voltage law "
+                "fixes the same voltage twice (add a resistance in the loop or remove one source)"))
+            continue
+        adj.setdefault(a, []).append((c, b))
+        adj.setdefault(c, []).append((a, b))
+    return diags
 
 
 def _node_locs(c: Circuit) -> dict[tuple[str, str], Loc]:

@@ -11,6 +11,7 @@ BIPM, The International System of Units (SI), 9th ed., 2019, sections 3 and 5.
 """
 from __future__ import annotations
 
+import math
 import re
 from fractions import Fraction
 
@@ -43,7 +44,7 @@ RKM_LETTERS = {"R": 1.0, "K": 1e3, "k": 1e3, "M": 1e6, "G": 1e9, "T": 1e12,
 _DEC = r"(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
 _RKM = r"\d+[RKkMGTpnuµμm]\d+"
 _QUANTITY = re.compile(rf"(?P<rkm>{_RKM})|(?P<dec>{_DEC})")
-_RKM_NAME = re.compile(r"R(\d+)")
+_RKM_NAME = re.compile(r"[RKkMGTpnuµμm]\d+")
 
 NAMES = {OHM: "Ω", VOLT: "V", AMP: "A", FARAD: "F", HENRY: "H", SIEMENS: "S", HERTZ: "Hz",
          KELVIN: "K", WATT: "W", A_PER_V2: "A/V^2", PER_VOLT: "1/V", ONE: "1"}
@@ -96,10 +97,24 @@ def _rkm_value(code: str) -> float:
     raise UnitError(code)
 
 
-def rkm_name_value(name: str) -> float | None:
-    """The value of a name that is an RKM code with a leading R (``R47`` = 0.47 Ω), else None."""
-    m = _RKM_NAME.fullmatch(name)
-    return float("0." + m.group(1)) if m else None
+def looks_like_rkm(name: str) -> bool:
+    """True for a name that an RKM code with its leading digit left out would spell (``R9``, ``k7``).
+
+    Such a name is a name, never a number: an RKM value starts with a digit (``0R9``), so
+    an undefined ``R9`` is an error, not 0.9 Ω.
+
+    Examples
+    --------
+    >>> looks_like_rkm("R9"), looks_like_rkm("RC"), looks_like_rkm("k47")
+    (True, False, True)
+    """
+    return _RKM_NAME.fullmatch(name) is not None
+
+
+def rkm_example(name: str) -> str:
+    """What ``0`` + name means as an RKM code, in words (``R9`` -> ``0.9 Ω``)."""
+    v = _rkm_value("0" + name)
+    return eng(v, "Ω" if name[0] in "RKkMGT" else "")
 
 
 def dim_name(d: Dim | None) -> str:
@@ -115,3 +130,34 @@ def dim_name(d: Dim | None) -> str:
         elif e:
             parts.append(f"{sym}^{e}")
     return "*".join(parts) or "1"
+
+
+_ENG = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T"}
+
+
+def eng(x: float, unit: str = "", digits: int = 4) -> str:
+    """Engineering notation: ``eng(4700, 'Ω') == '4.7 kΩ'``.
+
+    Examples
+    --------
+    >>> eng(0.0386817, "S")
+    '38.68 mS'
+    >>> eng(float("inf"), "Ω")
+    '∞ Ω'
+    """
+    sep = " " if unit else ""
+    if math.isnan(x):
+        return "nan" + sep + unit
+    if math.isinf(x):
+        return ("∞" if x > 0 else "-∞") + sep + unit
+    if x == 0:
+        return "0" + sep + unit
+    e = int(math.floor(math.log10(abs(x)) / 3) * 3)
+    e = max(-15, min(12, e))
+    if (not unit or "/" in unit) and -3 <= e <= 3 or unit in ("V/V", "A/A"):
+        e = 0  # ratios and plain numbers take no prefix
+    m = x / 10 ** e
+    text = f"{m:.{digits}g}"
+    if "e" in text:
+        return f"{x:.{digits}g}{sep}{unit}"
+    return f"{text}{sep}{_ENG[e]}{unit}"

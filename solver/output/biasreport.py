@@ -1,7 +1,9 @@
 """Plain-text tables of a DC operating point (``portwise bias`` and the top of ``portwise solve``)."""
 from __future__ import annotations
 
+from solver.circuit.devices import needs_bias
 from solver.circuit.model import Circuit
+from solver.output.jsonout import number as _num
 from solver.output.report import eng
 
 _OP = {"bjt": (("ic", "IC", "A"), ("ib", "IB", "A"), ("vbe", "VBE", "V"), ("vce", "VCE", "V")),
@@ -20,11 +22,11 @@ def bias_lines(c: Circuit, res) -> list[str]:
     Examples
     --------
     >>> from solver import loads
-    >>> from solver.analysis.bias import solve_bias, apply_bias
+    >>> from solver.analysis.bias import solve_bias, biased
     >>> c = loads("supply V1 (a, gnd) 5 V\\nsignal IS (k, gnd) 1 mA\\nresistor R (a, k) 1k\\n"
     ...           "diode D1 (k, gnd)\\noutput (k, gnd)")
-    >>> r = solve_bias(c); apply_bias(c, r)
-    >>> bias_lines(c, r)[0]
+    >>> r = solve_bias(c)
+    >>> bias_lines(biased(c, r), r)[0]
     'DC operating point (Newton–Raphson, 5 iterations)'
     """
     how = "Newton–Raphson" if res.method == "newton" else f"Newton–Raphson with {res.method}"
@@ -58,7 +60,6 @@ def bias_lines(c: Circuit, res) -> list[str]:
 
 
 def _from_bias(d) -> bool:
-    from solver.circuit.devices import needs_bias
     return needs_bias(d)
 
 
@@ -72,3 +73,34 @@ def bias_report(c: Circuit, res) -> str:
     out.extend(notes)
     out.append(CAUTION)
     return "\n".join(out)
+
+
+#: the reference directions of the bias JSON (and of the report), stated in the JSON itself
+CONVENTIONS = {
+    "currents": "into the device terminal: ic, ib, id are positive for an npn or nmos in its "
+                "active/saturation region and negative for a pnp or pmos",
+    "voltages": "vbe, vce, vgs, vds are the first terminal's potential minus the second's "
+                "(negative for a pnp or pmos in its amplifying region)",
+    "supplies": "current delivered out of the supply's first (P) node",
+    "small_signal": "gm, rpi, ro, rd are magnitudes (positive) for every polarity",
+}
+
+
+def bias_json(res, c: Circuit) -> dict:
+    """The ``portwise bias --json`` object (signed values for pnp and pmos, see CONVENTIONS).
+
+    ``c`` is the biased circuit (its devices carry their small-signal parameters).
+    """
+    keys = {"bjt": ("region", "ic", "ib", "vbe", "vce", "power"), "mos": ("region", "id", "vgs", "vds", "power"),
+            "diode": ("region", "id", "vd", "power")}
+    ss_keys = {"bjt": ("gm", "rpi", "ro"), "mos": ("gm", "ro"), "diode": ("rd",)}
+    devices = {}
+    for d in c.devices:
+        kind = _kind(d)
+        op = res.devices[d.name]
+        entry = {k: (op[k] if k == "region" else _num(op[k])) for k in keys[kind]}
+        entry.update({k: _num(d.ss[k]) for k in ss_keys[kind] if k in d.ss})
+        devices[d.name] = entry
+    return {"nodes": {n: _num(v) for n, v in res.nodes.items()}, "devices": devices,
+            "supplies": {n: _num(i) for n, i in res.supplies.items()},
+            "iterations": res.iterations, "conventions": dict(CONVENTIONS)}

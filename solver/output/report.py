@@ -5,42 +5,15 @@ import cmath
 import math
 
 from solver.circuit.model import Circuit
+from solver.circuit.views import is_reactive
+from solver.language.units import eng  # noqa: F401  (the reports' number format)
 
-_ENG = {-15: "f", -12: "p", -9: "n", -6: "µ", -3: "m", 0: "", 3: "k", 6: "M", 9: "G", 12: "T"}
 UNIT_TEXT = {"ohm": "Ω", "V/V": "V/V", "A/A": "A/A"}
 # IEC 61140 extra-low-voltage bands: 50 V a.c. rms, 120 V ripple-free d.c. (from memory)
 ELV_DC_VOLTS = 120.0
 ELV_AC_VOLTS = 50.0
 CAUTION = ("Small-signal results are linear estimates around one operating point, not a safety "
            "assessment. Mains and high-voltage work follows local codes and licensed practice.")
-
-
-def eng(x: float, unit: str = "", digits: int = 4) -> str:
-    """Engineering notation: ``eng(4700, 'Ω') == '4.7 kΩ'``.
-
-    Examples
-    --------
-    >>> eng(0.0386817, "S")
-    '38.68 mS'
-    >>> eng(float("inf"), "Ω")
-    '∞ Ω'
-    """
-    sep = " " if unit else ""
-    if math.isnan(x):
-        return "nan" + sep + unit
-    if math.isinf(x):
-        return ("∞" if x > 0 else "-∞") + sep + unit
-    if x == 0:
-        return "0" + sep + unit
-    e = int(math.floor(math.log10(abs(x)) / 3) * 3)
-    e = max(-15, min(12, e))
-    if (not unit or "/" in unit) and -3 <= e <= 3 or unit in ("V/V", "A/A"):
-        e = 0  # ratios and plain numbers take no prefix
-    m = x / 10 ** e
-    text = f"{m:.{digits}g}"
-    if "e" in text:
-        return f"{x:.{digits}g}{sep}{unit}"
-    return f"{text}{sep}{_ENG[e]}{unit}"
 
 
 def fmt_quantity(name: str, z: complex, unit: str) -> str:
@@ -95,7 +68,7 @@ def solve_report(result, symbolic: dict | None = None) -> str:
     out = []
     out.append(c.title or c.file)
     f = result.frequency_hz
-    if f == 0 and not c.reactive:
+    if f == 0 and not is_reactive(c):
         out.append("small-signal analysis: no capacitors or inductors, the results hold at any frequency")
     else:
         out.append(f"small-signal analysis at {'DC' if f == 0 else eng(f, 'Hz')}")

@@ -111,9 +111,6 @@ def _ref(e: ex.Ref, c: Circuit, scope, symbols, rec):
     res = c.resolver
     entry, attr = res.resolve(e, scope)
     if entry is None:
-        if isinstance(attr, tuple):
-            from solver.language.units import rkm_name_value
-            return _rational(rkm_name_value(attr[1]))
         return sympy.pi
     if entry.kind in ("let", "param"):
         return rec(entry.expr, entry.scope)
@@ -127,7 +124,7 @@ def _ref(e: ex.Ref, c: Circuit, scope, symbols, rec):
             return symbol(full)
         return _rational(res.value_of(entry, None, e.loc).x)  # a supply: a fixed number
     # a device quantity
-    dev = res.devices.get(full) or res.device(entry)
+    dev = c.device(full) or res.device(entry)  # the analysed (biased) circuit's own device first
     name = f"{full}.{attr}"
     if dev.kind == "opamp":
         if name in symbols:
@@ -378,17 +375,6 @@ class Verdict:
     exact_when: list[str] = field(default_factory=list)
     exact_expression: str = ""  # the exact quantity in plain text ("" when too long to show)
 
-    def to_json(self) -> dict:
-        from solver.output.jsonout import number
-
-        def z(v):
-            return {"re": number(v.real), "im": number(v.imag)}
-        return {"line": self.line, "quantity": self.quantity, "kind": self.kind, "claim": self.text,
-                "holds": self.holds, "exact": self.exact, "value": z(self.value), "claimed": z(self.claimed),
-                "rel_error": self.rel_error if math.isfinite(self.rel_error) else "inf",
-                "tolerance": self.tolerance, "exact_when": self.exact_when,
-                "exact_expression": self.exact_expression}
-
 
 def numeric(expr, values: dict, s: complex) -> complex:
     """Value of a sympy expression of circuit symbols at the netlist values and frequency s."""
@@ -409,18 +395,17 @@ def check_claims(c: Circuit, frequency_hz: float) -> list[Verdict]:
     The quantity's value comes from the numeric engine; exactness and
     ``exact_when`` from the symbolic engine with every symbol kept.
     """
+    from solver.analysis import scenarios
     from solver.analysis.ports import port_quantities
     from solver.analysis.symbolic.ports import symbol_values, symbolic_port_quantities
     values = symbol_values(c)
     s = 2j * math.pi * frequency_hz
-    nums = port_quantities(c, frequency_hz).quantities
     wanted = sorted({cl.quantity for cl in c.claims})
-    missing = [q for q in wanted if q not in nums]
     for cl in c.claims:
-        if cl.quantity in missing:
-            why = "the circuit has no load" if cl.quantity == "Ai" else \
-                f"this circuit's signal kind gives {'Zt/Zto' if c.signal.kind == 'A' else 'Gv/Gvo'} instead"
+        why = scenarios.why_undefined(c, cl.quantity)
+        if why:
             raise error(cl.loc, f"claim on {cl.quantity}: {why}")
+    nums = port_quantities(c, frequency_hz, which=wanted).quantities
     sym = symbolic_port_quantities(c, which=wanted)
     from solver.analysis.symbolic.ports import scenario_elements
     from solver.analysis.symbolic.printing import symbol_dims

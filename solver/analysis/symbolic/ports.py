@@ -1,26 +1,22 @@
-"""Symbolic port quantities, built from the numeric engine's own scenario builders.
+"""Symbolic port quantities, read from the same scenario table as the numeric engine.
 
-The scenarios are those of :mod:`solver.analysis.ports` (the same element lists from
-``small_signal_elements``, ``signal_elements`` and ``load_element``): the
-unloaded drive, the loaded drive and the output test source. Each port quantity
-is a ratio of two linear functionals of the solution, and with Cramer's rule
-x_k = sum_r C_rk b_r / det A, so every quantity is a ratio of sums of cofactors
-of one memoised matrix per scenario.
+The configurations and read-outs are those of :mod:`solver.analysis.scenarios`.
+Each port quantity is a ratio of two linear read-outs of the solution, and with
+Cramer's rule x_k = sum_r C_rk b_r / det A every read-out times det A is a sum of
+cofactors of one memoised matrix per configuration, so no division is needed.
 """
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
 
-from solver.diagnostics import error
-from solver.circuit.elements import CurrentSource, VoltageSource
+from solver.analysis import scenarios as table
 from solver.circuit.model import Circuit
-from solver.analysis.ports import load_element, signal_elements, small_signal_elements
+from solver.circuit.views import load_element, signal_elements, small_signal_elements
+from solver.diagnostics import error
 from solver.engine.symbolic.determinants import LaplaceDeterminants, RationalFunction, evaluate_dict, natural, to_sympy
 from solver.engine.symbolic.ring import Ring
 from solver.engine.symbolic.stamper import S_NAME, SymbolicStamper, variable_names
-
-TEST = "{test}"
 
 
 class SymbolicQuantity:
@@ -117,13 +113,14 @@ def choose_symbols(c: Circuit, keep=None, numeric=()) -> list[str]:
     return chosen
 
 
-class _Scenario:
-    """One stamped scenario: its cofactors and the functional solve."""
+class _Config:
+    """One stamped configuration: its cofactors, and read-outs times det A."""
 
     def __init__(self, c: Circuit, els, ring: Ring, keep, domain=None):
         self.st = SymbolicStamper(els, c.ground, ring, keep).stamp_all()
         entries, zero, one = self.st.A, ring.zero, ring.one
         self.b = dict(self.st.b)
+        self.conv = (lambda x: x) if domain is None else domain[0]
         if domain is not None:  # compact form: the same recursion over sympy expressions
             conv, zero, one = domain
             entries = {k: conv(v) for k, v in entries.items()}
@@ -138,31 +135,35 @@ class _Scenario:
             self._det = self.L.det()
         return self._det
 
-    def node(self, name):
-        return self.st.node(name)
-
-    def times_det(self, w: dict):
-        """det(A) * sum_k w_k x_k, as a sum of cofactors (no division)."""
+    def times_det(self, k: int):
+        """det(A) * x_k, as a sum of cofactors (no division)."""
         total = self.zero
-        for k, wk in w.items():
-            if k is None:
+        for r, br in self.b.items():
+            if br == 0:
                 continue
-            for r, br in self.b.items():
-                if br == 0:
-                    continue
-                cof = self.L.cofactor(r, k)
-                if cof == 0:
-                    continue
-                total = total + wk * br * cof
+            cof = self.L.cofactor(r, k)
+            if cof == 0:
+                continue
+            total = total + br * cof
         return total
 
-    def port(self, p, n, scale=1):
-        w = {}
-        for node, sign in ((p, 1), (n, -1)):
-            i = self.node(node)
-            if i is not None:
-                w[i] = w.get(i, 0) + sign * scale
-        return w
+    def read(self, terms):
+        """det(A) times a read-out of the scenario table."""
+        total = self.zero
+        for t in terms:
+            if t.kind == "node":
+                k = self.st.node(t.name)
+                if k is None:
+                    continue
+                v = self.times_det(k)
+            elif t.kind == "branch":
+                v = self.times_det(self.st.branches[t.name])
+            else:
+                v = self.det
+            if t.per is not None:
+                v = v * self.conv(self.st.recip(t.per))
+            total = total + v if t.sign > 0 else total - v
+        return total
 
 
 def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, compact: bool = False):
@@ -192,74 +193,33 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
     """
     kept = choose_symbols(c, keep, numeric)
     base = small_signal_elements(c)
-    ring = Ring(variable_names(kept, [base + signal_elements(c, 1.0) + ([load_element(c)] if c.load else [])]))
+    ring = Ring(variable_names(kept, [scenario_elements(c)]))
     domain = _compact_domain(ring, kept) if compact else None
-    current = c.signal.kind == "A"
-    names = ["Rin", "Rout", "Avo", "Av", "Zt" if current else "Gv", "Zto" if current else "Gvo", "Ai"]
-    if c.load is None:
-        names.remove("Ai")
-    want = [q for q in names if which is None or q in which]
-    sc = lambda els: _Scenario(c, els, ring, set(kept), domain)  # noqa: E731
-    out: dict[str, object] = {}
-    op, on = c.output_port
-    p, n = c.signal.nodes
+    configs: dict = {}
 
-    def drive(loaded):
-        els = base + signal_elements(c, 1.0)
-        if loaded:
-            els.append(load_element(c))
-        s = sc(els)
-        v_in = s.times_det(s.port(p, n))
-        v_out = s.times_det(s.port(op, on))
-        if c.signal.kind == "V":
-            i_in = s.times_det({s.st.branch(_named(els, c.signal.name)): -1})
-        elif math.isfinite(c.signal.rs):
-            rs_el = _named(els, f"{c.signal.name}.rs")
-            i_in = s.det - v_in * s.st.recip(rs_el) if domain is None else s.det - v_in * domain[0](s.st.recip(rs_el))
-        else:
-            i_in = s.det
-        return s, v_in, v_out, i_in
+    def stamped(m):
+        if m.config.key not in configs:
+            configs[m.config.key] = _Config(c, list(m.config.elements), ring, set(kept), domain)
+        return configs[m.config.key]
 
-    def ratio(a, b):
-        if domain is not None:
-            return a / b
-        return RationalFunction(a, b, ring)
-
-    unl = {"Avo", "Gvo", "Zto"} | ({"Rin", "Av", "Gv", "Zt"} if c.load is None else set())
-    if unl & set(want):
-        s, v_in, v_out, i_in = drive(False)
-        if c.load is None:
-            out.update(Rin=ratio(v_in, i_in), Av=ratio(v_out, v_in), **{names[4]: ratio(v_out, s.det)})
-        out.update(Avo=ratio(v_out, v_in), **{names[5]: ratio(v_out, s.det)})
-    if c.load is not None and {"Rin", "Av", "Gv", "Zt", "Ai"} & set(want):
-        s, v_in, v_out, i_in = drive(True)
-        lp, ln = c.load.nodes
-        conv = domain[0] if domain is not None else (lambda x: x)
-        g_load = conv(s.st.recip(load_element(c)))
-        i_load = s.times_det(s.port(lp, ln, 1)) * g_load
-        out.update(Rin=ratio(v_in, i_in), Av=ratio(v_out, v_in), Ai=ratio(i_load, i_in),
-                   **{names[4]: ratio(v_out, s.det)})
-    if "Rout" in want:
-        els = base + signal_elements(c, 0.0, with_source=False)
-        s = sc(els + [CurrentSource(TEST, (on, op), 1.0, None, "", None)])
-        if s.det != 0:
-            out["Rout"] = ratio(s.times_det(s.port(op, on)), s.det)
-        else:  # a stiff output: drive it with 1 V and take the current
-            test = VoltageSource(TEST, (op, on), 1.0, None, "", None)
-            s = sc(els + [test])
-            out["Rout"] = ratio(s.det, s.times_det({s.st.branch(test): -1}))
     result = {}
-    for q in want:
-        v = out[q]
+    for q in table.quantities(c):
+        if which is not None and q not in which:
+            continue
+        orders = table.ROUT_ORDER if q == "Rout" else table.ROUT_ORDER[:1]
+        for k, rout in enumerate(orders):
+            m = table.measurement(c, q, rout, base)
+            s = stamped(m)
+            if k + 1 < len(orders) and s.det == 0:
+                continue  # singular for every value: the table's next Rout measurement
+            num = s.read(m.num)
+            den = s.read(m.den) if m.den is not None else s.det
+            break
         if domain is not None:
-            result[q] = v
+            result[q] = num / den
         else:
-            result[q] = SymbolicQuantity(q, v.cancel(), kept)
+            result[q] = SymbolicQuantity(q, RationalFunction(num, den, ring).cancel(), kept)
     return result
-
-
-def _named(els, name):
-    return next(e for e in els if e.name == name)
 
 
 def _compact_domain(ring: Ring, kept):

@@ -44,6 +44,7 @@ def quick_symbolic(c: Circuit, seconds: float = MAX_SECONDS) -> dict[str, str]:
 
 
 def _quick(c: Circuit) -> dict[str, str]:
+    from solver.analysis import scenarios
     from solver.engine.mna import Stamper
     from solver.analysis.symbolic.ports import circuit_symbols, scenario_elements
     try:
@@ -52,10 +53,7 @@ def _quick(c: Circuit) -> dict[str, str]:
         if Stamper(scenario_elements(c), c.ground).size > MAX_UNKNOWNS:
             return {}
         from solver.analysis.symbolic.derive import derive
-        current = c.signal.kind == "A"
-        qs = ["Rin", "Rout", "Avo", "Av", "Zt" if current else "Gv", "Zto" if current else "Gvo"]
-        if c.load is not None:
-            qs.append("Ai")
+        qs = scenarios.quantities(c)
         out = {}
         for d in derive(c, qs):
             if len(d.plain) <= MAX_CHARS:

@@ -20,23 +20,13 @@ def add_arguments(p) -> None:
 
 
 def run(args) -> int:
-    from solver import api
-    from solver.analysis.bias import BiasError, apply_bias, solve_bias, to_json
-    from solver.output.biasreport import bias_report
-    from solver.diagnostics import Diagnostic, InputError, Loc
+    from solver.analysis.pipeline import load, prepare
     from solver.cli.commands.common import emit_json, print_warnings
-    c = api.load(args.file)
-    try:
-        res = solve_bias(c)
-    except BiasError as e:
-        raise InputError([Diagnostic("error", e.loc or Loc(c.file, 1, 1), str(e))]) from None
-    apply_bias(c, res)
-    print_warnings(c)
-    if res.warnings:
-        from solver.cli import print_diagnostics
-        print_diagnostics(res.warnings)
+    from solver.output.biasreport import bias_json, bias_report
+    p = prepare(load(args.file), "bias")
+    print_warnings(p.warnings)
     if args.json:
-        emit_json(to_json(res, c))
+        emit_json(bias_json(p.bias, p.circuit))
     else:
-        print(bias_report(c, res))
+        print(bias_report(p.circuit, p.bias))
     return 0

@@ -57,26 +57,28 @@ def table(verdicts) -> str:
 
 
 def run(args) -> int:
-    from solver import api
-    from solver.diagnostics import error
+    from solver.analysis.pipeline import analysis_frequency, load, prepare
     from solver.analysis.ports import PortError
-    from solver.output.report import CAUTION, eng
+    from solver.analysis.singular import explain_singular
     from solver.analysis.symbolic.claims import check_claims
     from solver.cli.commands.common import emit_json, frequency, print_warnings
-    c = api.load(args.file)
-    from solver.analysis.bias import ensure_bias
-    ensure_bias(c)  # devices given by DC parameters: bias first (refuses a device outside its region)
-    print_warnings(c)
+    from solver.diagnostics import error
+    from solver.output.report import CAUTION, eng
+    at = frequency(args.at) if args.at is not None else None
+    p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac")
+    c = p.circuit
+    print_warnings(p.warnings)
     if not c.claims:
         raise error(None, f"'{args.file}' has no claim lines (write e.g. 'claim Av ~ -RC/RE within 10%')")
-    f, _ = api.analysis_frequency(c, frequency(args.at) if args.at is not None else None)
+    f, _ = analysis_frequency(c, at)
     try:
         verdicts = check_claims(c, f)
     except PortError as e:
-        raise error(None, str(e)) from None
+        raise p.fail(explain_singular(c, f, str(e))) from None
     ok = all(v.holds for v in verdicts)
     if args.json:
-        emit_json({"frequency_hz": f, "claims": [v.to_json() for v in verdicts]})
+        from solver.output.claims import verdict_json
+        emit_json({"frequency_hz": f, "claims": [verdict_json(v) for v in verdicts]})
     else:
         print(f"{c.title or c.file}: {len(verdicts)} claim(s) at {'DC' if f == 0 else eng(f, 'Hz')}")
         print(table(verdicts))

@@ -39,10 +39,11 @@ def emit_json(obj) -> None:
     sys.stdout.write("\n")
 
 
-def print_warnings(circuit) -> None:
+def print_warnings(warnings) -> None:
+    """Print diagnostics (a list, as the pipeline and the results return them) to stderr."""
     from solver.cli import print_diagnostics
-    if circuit.warnings:
-        print_diagnostics(circuit.warnings)
+    if warnings:
+        print_diagnostics(warnings)
 
 
 def write_file(path: str | Path, data: bytes | str, force: bool = False) -> None:

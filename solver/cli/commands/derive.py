@@ -20,7 +20,9 @@ coefficient of s, the terms whose summed size at the nominal values is within th
 tolerance, and reports the error this causes at the analysis frequency.
 Small-signal results are linear estimates, not a safety assessment."""
 
-QUANTITY_CHOICES = ("Rin", "Rout", "Avo", "Av", "Gv", "Gvo", "Ai", "Zt", "Zto", "all")
+from solver.circuit.model import PORT_QUANTITIES
+
+QUANTITY_CHOICES = PORT_QUANTITIES + ("all",)
 
 
 def _names(values) -> list[str]:
@@ -60,34 +62,30 @@ def tolerance(text: str) -> float:
 
 
 def run(args) -> int:
-    from solver import api
+    from solver.analysis import scenarios
+    from solver.analysis.pipeline import analysis_frequency, load, prepare
     from solver.analysis.symbolic.claims import parse_limit
     from solver.analysis.symbolic.derive import derive
     from solver.analysis.symbolic.ports import circuit_symbols
     from solver.cli.commands.common import emit_json, frequency, print_warnings
-    c = api.load(args.file)
-    from solver.analysis.bias import ensure_bias
-    ensure_bias(c)  # devices given by DC parameters: bias first (refuses a device outside its region)
-    print_warnings(c)
-    current = c.signal.kind == "A"
-    every = ["Rin", "Rout", "Avo", "Av", "Zt" if current else "Gv", "Zto" if current else "Gvo"]
-    if c.load is not None:
-        every.append("Ai")
+    from solver.diagnostics import error
+    at = frequency(args.at) if args.at is not None else None
+    p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac")  # the same input checks as solve
+    c = p.circuit
+    print_warnings(p.warnings)
     if args.quantity == "all":
-        qs = every
-    elif args.quantity not in every:
-        from solver.diagnostics import error
-        why = "the circuit has no load" if args.quantity == "Ai" else \
-            f"a {'current' if current else 'voltage'} signal gives {', '.join(every[4:6])}"
-        raise error(None, f"{args.quantity} is not defined here: {why}")
+        qs = scenarios.quantities(c)
     else:
+        why = scenarios.why_undefined(c, args.quantity)
+        if why:
+            raise error(None, f"{args.quantity} is not defined here: {why}")
         qs = [args.quantity]
     syms = circuit_symbols(c)
     limits = [parse_limit(t, syms) for t in args.limit]
     keep = _names(args.keep) if args.keep else None
     numeric = _names(args.numeric)
     tol = tolerance(args.dominant) if args.dominant is not None else None
-    f, _ = api.analysis_frequency(c, frequency(args.at) if args.at is not None else None)
+    f, _ = analysis_frequency(c, at)
     results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias)
     if args.json:
         items = []

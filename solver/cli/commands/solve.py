@@ -29,20 +29,18 @@ def add_arguments(p) -> None:
 
 def run(args) -> int:
     from solver import api
-    from solver.output.report import solve_report
     from solver.cli.commands.common import emit_json, frequency, print_warnings
+    from solver.output.report import solve_report
     c = api.load(args.file)
     at = frequency(args.at) if args.at is not None else None
     result = api.solve(c, at, force=args.force)
-    print_warnings(c)
-    if result.bias is not None and result.bias.warnings:
-        from solver.cli import print_diagnostics
-        print_diagnostics(result.bias.warnings)
+    print_warnings(result.warnings)
+    c = result.circuit
     if args.json:
         obj = result.to_json()
         if result.bias is not None:
-            from solver.analysis.bias import to_json
-            obj["bias"] = to_json(result.bias, c)
+            from solver.output.biasreport import bias_json
+            obj["bias"] = bias_json(result.bias, c)
             obj["notes"] = result.notes
         emit_json(obj)
     else:

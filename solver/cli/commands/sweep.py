@@ -17,7 +17,7 @@ examples:
   portwise sweep circuits/hydrophone_ce_stage.pw --from 1Hz --to 100MHz --per-decade 40 --plot bode.svg
   portwise sweep circuits/hydrophone_ce_stage.pw --from 10Hz --to 10MHz --quantity Rin --csv rin.csv --json"""
 
-QUANTITY_CHOICES = ("Gv", "Gvo", "Av", "Avo", "Ai", "Rin", "Rout", "Zt", "Zto")
+from solver.circuit.model import PORT_QUANTITIES as QUANTITY_CHOICES  # noqa: E402
 
 
 def add_arguments(p) -> None:
@@ -41,11 +41,12 @@ MAX_POINTS = 1_000_000
 def run(args) -> int:
     from pathlib import Path
 
-    from solver import api
-    from solver.diagnostics import error
     from solver.analysis.frequency import ResponseError, default_quantity, frequencies
-    from solver.analysis.response import analyse, csv_text, text_report
+    from solver.analysis.pipeline import load, prepare
+    from solver.analysis.response import analyse
     from solver.cli.commands.common import emit_json, frequency, print_warnings, write_file
+    from solver.diagnostics import error
+    from solver.output.sweep import csv_text, summary_json, text_report
     f_from = frequency(args.f_from, "--from")
     f_to = frequency(args.f_to, "--to")
     if f_from <= 0:
@@ -64,11 +65,8 @@ def run(args) -> int:
     for out in (args.csv, args.plot):  # refuse before any work, so nothing is half written
         if out and Path(out).exists() and not args.force:
             raise error(None, f"'{out}' exists; use --force to replace it")
-    c = api.load(args.file)
-    from solver.analysis.bias import ensure_bias
-    ensure_bias(c)  # devices given by DC parameters: bias first (refuses a device outside its region)
-    from solver.circuit.topology import require_sound
-    require_sound(c, "ac")  # floating nodes, source loops, cut sets: named before any solve
+    p = prepare(load(args.file), "ports", "ac")
+    c = p.circuit
     quantity = args.quantity or default_quantity(c)
     freqs = frequencies(f_from, f_to, args.points, args.per_decade)
     if len(freqs) > MAX_POINTS:
@@ -77,7 +75,7 @@ def run(args) -> int:
         sm = analyse(c, quantity, freqs)
     except ResponseError as e:
         raise error(None, f"--quantity: {e}") from None
-    print_warnings(c)
+    print_warnings(p.warnings)
     if args.csv:
         write_file(args.csv, csv_text(freqs, sm.h), args.force)
     if args.plot:
@@ -85,10 +83,10 @@ def run(args) -> int:
         b = sm.band
         img = bode(freqs, sm.h, plot_fmt, c.title or Path(c.file).stem, quantity,
                    {"f_low": b.f_low_hz, "f_high": b.f_high_hz} if b else None,
-                   (sm.to_json()["summary"]["midband_db"] if b else None))
+                   (summary_json(sm)["summary"]["midband_db"] if b else None))
         write_file(args.plot, img, args.force)
     if args.json:
-        emit_json(sm.to_json())
+        emit_json(summary_json(sm))
     else:
         print(text_report(sm))
     return 0

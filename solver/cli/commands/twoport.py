@@ -108,10 +108,11 @@ def text_report(c, tp) -> str:
 def run(args) -> int:
     from pathlib import Path
 
-    from solver import api
-    from solver.diagnostics import error
     from solver.analysis.frequency import frequencies
-    from solver.analysis.twoport import TwoPortError, s_sweep, touchstone, two_port
+    from solver.analysis.pipeline import load, prepare
+    from solver.analysis.twoport import TwoPortError, s_sweep, two_port
+    from solver.diagnostics import error
+    from solver.output.touchstone import touchstone
     from solver.cli.commands.common import emit_json, frequency, print_warnings, write_file
     z0 = _z0(args.z0)
     sweep = args.f_from is not None or args.f_to is not None
@@ -130,11 +131,8 @@ def run(args) -> int:
             raise error(None, "--points: between 2 and 1000000")
         if args.per_decade is not None and not 1 <= args.per_decade <= 100_000:
             raise error(None, "--per-decade: between 1 and 100000")
-    c = api.load(args.file)
-    from solver.analysis.bias import ensure_bias
-    ensure_bias(c)  # devices given by DC parameters: bias first (refuses a device outside its region)
-    from solver.circuit.topology import require_sound
-    require_sound(c, "dc" if at == 0 else "ac", two_port=True)  # faults inside the network, named first
+    p = prepare(load(args.file), "twoport", "dc" if at == 0 else "ac")  # faults inside the network, named first
+    c = p.circuit
     try:
         tp = two_port(c, at, z0) if at is not None else None
         if args.touchstone:
@@ -142,7 +140,7 @@ def run(args) -> int:
             s = s_sweep(c, freqs, z0)
     except TwoPortError as e:
         raise error(c.output_loc or (c.load.loc if c.load else None), str(e)) from None
-    print_warnings(c)
+    print_warnings(p.warnings)
     if args.touchstone:
         import numpy as np
         if not np.all(np.isfinite(s)):

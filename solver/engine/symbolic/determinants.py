@@ -122,14 +122,6 @@ class RationalFunction:
             return self
         return RationalFunction(self.ring.exquo(self.num, g), self.ring.exquo(self.den, g), self.ring)
 
-    @property
-    def is_zero(self) -> bool:
-        return self.num == 0
-
-    @property
-    def is_infinite(self) -> bool:
-        return self.den == 0 and self.num != 0
-
 
 def natural(rf: RationalFunction, symbols: list[str]):
     """Merge ``X`` and ``1/X`` into one variable: (num, den, gens) as {exponent tuple: Fraction}.
@@ -204,7 +196,3 @@ def to_sympy(num: dict, den: dict, gens: list[str]):
     if d == 0:
         return sympy.oo if n != 0 else sympy.nan  # an open port: unbounded
     return n / d
-
-
-def fraction_of(x) -> Fraction:
-    return x if isinstance(x, Fraction) else Fraction(x)

@@ -115,9 +115,6 @@ class Ring:
         exps, coeffs = self.terms(p)
         return dict(zip(exps, coeffs))
 
-    def nterms(self, p) -> int:
-        return len(p)
-
     def gcd(self, a, b):
         return a.gcd(b)
 

@@ -1,0 +1,284 @@
+"""The scenario table: what each port quantity measures, read by every engine and analysis.
+
+A port quantity is the ratio of two linear read-outs of one linear circuit with
+one unit excitation. The table below says, for each quantity, which excitation
+drives the circuit, whether the load is in place, and which read-outs make the
+numerator and the denominator. It is the only place that decides this: the
+numeric solve (:mod:`solver.analysis.ports`), the sweeps
+(:mod:`solver.analysis.frequency`), the symbolic engine
+(:mod:`solver.analysis.symbolic.ports`), the time-constant estimates, the
+topology checks of the configurations and every later analysis read it.
+
+Definitions (phasor ratios at s = j 2 pi f; currents into the port):
+
+======  ============================================  =========  ======  ==============
+name    meaning                                       drive      load    read-out
+======  ============================================  =========  ======  ==============
+Rin     input resistance at the signal's (P, N)       signal     yes     v_in / i_in
+Rout    Thevenin impedance at the output port,        test       no      v_out / 1
+        signal zeroed (its rs stays)
+Avo     open-circuit voltage gain                     signal     no      v_out / v_in
+Av      loaded voltage gain                           signal     yes     v_out / v_in
+Gv      overall gain from the source (voltage sig.)   signal     yes     v_out / 1
+Gvo     the same without the load                     signal     no      v_out / 1
+Ai      current gain                                  signal     yes     i_load / i_in
+Zt      transimpedance from the source (current sig.) signal     yes     v_out / 1
+Zto     the same without the load                     signal     no      v_out / 1
+======  ============================================  =========  ======  ==============
+
+"load: yes" means the load when the circuit has one; without a load, Av = Avo,
+Gv = Gvo and Ai is not defined. The signal drives at unit amplitude, so "/ 1" is
+"per unit of the source" (v_sig or i_sig).
+
+Rout has two measurements, in the order of :data:`ROUT_ORDER`: a 1 A test current
+into the output port (Rout = v_out), and, when that system is singular (a stiff,
+ideal voltage output has no defined voltage response to a forced current), a 1 V
+test source (Rout = 1 / i_test). Every engine applies this one rule with its own
+test of "singular": the numeric solve at the analysis frequency, the sweep at a
+probe frequency away from any pole, the symbolic engine by a determinant that is
+identically zero.
+
+References
+----------
+A. S. Sedra, K. C. Smith, *Microelectronic Circuits*, 7th ed., section 1.5
+(amplifier models: Rin, Rout, Avo, the loaded gain and the overall gain Gv), from memory.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from solver.circuit.elements import CurrentSource, Element, VoltageSource
+from solver.circuit.model import PORT_QUANTITIES, Circuit
+from solver.circuit.views import load_element, signal_elements, small_signal_elements
+
+#: every port quantity, in report order
+QUANTITIES = PORT_QUANTITIES
+UNITS = {"Rin": "ohm", "Rout": "ohm", "Avo": "V/V", "Av": "V/V", "Gv": "V/V", "Gvo": "V/V",
+         "Ai": "A/A", "Zt": "ohm", "Zto": "ohm"}
+DEFINITIONS = {"Rin": "v_in/i_in", "Rout": "output impedance, load removed", "Avo": "v_out/v_in, no load",
+               "Av": "v_out/v_in", "Gv": "v_out/v_sig", "Gvo": "v_out/v_sig, no load", "Ai": "i_load/i_in",
+               "Zt": "v_out/i_sig", "Zto": "v_out/i_sig, no load"}
+#: dimensionless gains (a gain-bandwidth product in Hz); Zt, Zto are transimpedances
+RATIOS = ("Gv", "Gvo", "Av", "Avo", "Ai")
+GAINS = ("Gv", "Gvo", "Av", "Avo", "Ai", "Zt", "Zto")
+#: the name of the test source at the output port (Rout)
+TEST = "{test}"
+#: the Rout measurements, in the order they are tried: the first whose system is not singular
+ROUT_ORDER = ("test-current", "test-voltage")
+
+
+class QuantityError(ValueError):
+    """A quantity the circuit does not define (Ai without a load, Gv with a current signal)."""
+
+
+@dataclass(frozen=True)
+class Row:
+    """One line of the table: the excitation, the load, the two read-outs."""
+
+    drive: str           # "signal" | "test"
+    loaded: bool         # the load in place (when the circuit has one)
+    num: str             # read-out names, see Term
+    den: str | None      # None: per unit excitation
+    signal: str | None = None  # "V" or "A": only for that kind of signal
+
+
+TABLE = {
+    "Rin": Row("signal", True, "v_in", "i_in"),
+    "Rout": Row("test", False, "v_out", None),
+    "Avo": Row("signal", False, "v_out", "v_in"),
+    "Av": Row("signal", True, "v_out", "v_in"),
+    "Gv": Row("signal", True, "v_out", None, "V"),
+    "Gvo": Row("signal", False, "v_out", None, "V"),
+    "Zt": Row("signal", True, "v_out", None, "A"),
+    "Zto": Row("signal", False, "v_out", None, "A"),
+    "Ai": Row("signal", True, "i_load", "i_in"),
+}
+assert tuple(TABLE) == QUANTITIES  # one row per quantity, in report order
+
+
+def quantities(c: Circuit) -> list[str]:
+    """The port quantities this circuit defines, in report order.
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> quantities(loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, gnd) 1k\\noutput (a, gnd)\\n"))
+    ['Rin', 'Rout', 'Avo', 'Av', 'Gv', 'Gvo']
+    """
+    kind = c.signal.kind
+    return [q for q in QUANTITIES if TABLE[q].signal in (None, kind) and (q != "Ai" or c.load is not None)]
+
+
+def main_gain(c: Circuit) -> str:
+    """The overall gain of the circuit: Gv for a voltage signal, Zt for a current signal."""
+    return "Zt" if c.signal.kind == "A" else "Gv"
+
+
+def why_undefined(c: Circuit, quantity: str) -> str | None:
+    """None when ``quantity`` is defined for the circuit, else the reason in words."""
+    if quantity not in TABLE:
+        return f"unknown quantity '{quantity}' (one of {', '.join(QUANTITIES)})"
+    row = TABLE[quantity]
+    if quantity == "Ai" and c.load is None:
+        return "Ai needs a load"
+    if row.signal is not None and row.signal != c.signal.kind:
+        other = "Zt" if row.signal == "V" else "Gv"
+        kind = {"V": "voltage", "A": "current"}
+        return (f"{quantity} needs a {kind[row.signal]} signal; this circuit has a "
+                f"{kind[c.signal.kind]} signal (use {other}{quantity[2:] if len(quantity) > 2 else ''})")
+    return None
+
+
+# --- read-outs ----------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Term:
+    """One term of a linear read-out y = sum of terms.
+
+    kind -- "node": the voltage of node ``name``; "branch": the branch current of element
+            ``name`` (from its first node through it); "unit": the excitation itself (1)
+    sign -- +1 or -1
+    per  -- when given, the term is divided by this element's value (a voltage across a
+            resistor read as its current); each engine takes the reciprocal in its own domain
+    """
+
+    kind: str
+    name: str = ""
+    sign: int = 1
+    per: Element | None = None
+
+
+@dataclass(frozen=True)
+class Configuration:
+    """One linear circuit to solve: its elements and the key that says which it is."""
+
+    drive: str       # "signal" | "zeroed" | "test-current" | "test-voltage"
+    loaded: bool
+    elements: tuple[Element, ...]
+
+    @property
+    def key(self) -> tuple[str, bool]:
+        return self.drive, self.loaded
+
+    @property
+    def description(self) -> str:
+        if self.drive == "signal":
+            return "with the load" if self.loaded else "without the load"
+        if self.drive == "zeroed":
+            return "with the signal zeroed"
+        return "at the output port test"
+
+
+@dataclass(frozen=True)
+class Measurement:
+    """A quantity as the ratio of two read-outs of one configuration (den None: per unit)."""
+
+    quantity: str
+    config: Configuration
+    num: tuple[Term, ...]
+    den: tuple[Term, ...] | None
+
+
+def _voltage(p: str, n: str, per: Element | None = None) -> tuple[Term, ...]:
+    return (Term("node", p, 1, per), Term("node", n, -1, per))
+
+
+def _readout(c: Circuit, name: str, cfg: Configuration) -> tuple[Term, ...]:
+    p, n = c.signal.nodes
+    if name == "v_in":
+        return _voltage(p, n)
+    if name == "v_out":
+        return _voltage(*c.output_port)
+    if name == "i_load":
+        return _voltage(*c.load.nodes, per=_named(cfg, c.load.name))
+    if name == "i_in":
+        if c.signal.kind == "V":
+            # the source's branch current flows from its + node through it: into the circuit is -j
+            return (Term("branch", c.signal.name, -1),)
+        # Norton: the unit source current, less what its rs takes
+        if math.isfinite(c.signal.rs):
+            return (Term("unit"),) + tuple(Term(t.kind, t.name, -t.sign, _named(cfg, f"{c.signal.name}.rs"))
+                                           for t in _voltage(p, n))
+        return (Term("unit"),)
+    if name == "i_test":
+        return (Term("branch", TEST, -1),)
+    if name == "one":
+        return (Term("unit"),)
+    raise AssertionError(name)
+
+
+def _named(cfg: Configuration, name: str) -> Element:
+    return next(e for e in cfg.elements if e.name == name)
+
+
+# --- configurations -------------------------------------------------------------------------------
+def configuration(c: Circuit, drive: str, loaded: bool, base: list[Element] | None = None) -> Configuration:
+    """The elements of one configuration (``base``: the small-signal network, if already built).
+
+    drive "signal": the signal at unit amplitude; "zeroed": the signal zeroed (its rs stays:
+    a voltage signal is a short behind it, a current signal an open); "test-current" /
+    "test-voltage": zeroed, and a unit test source at the output port.
+    """
+    base = small_signal_elements(c) if base is None else base
+    loaded = loaded and c.load is not None
+    if drive == "signal":
+        els = base + signal_elements(c, 1.0)
+    else:
+        els = base + signal_elements(c, 0.0, with_source=False)
+        op, on = c.output_port if c.has_output else (None, None)
+        if drive == "test-current":  # 1 A into the output's P node
+            els.append(CurrentSource(TEST, (on, op), 1.0, None, "", None))
+        elif drive == "test-voltage":
+            els.append(VoltageSource(TEST, (op, on), 1.0, None, "", None))
+    if loaded:
+        els.append(load_element(c))
+    return Configuration(drive, loaded, tuple(els))
+
+
+def measurement(c: Circuit, quantity: str, rout: str = ROUT_ORDER[0],
+                base: list[Element] | None = None) -> Measurement:
+    """The configuration and read-outs that define ``quantity`` for this circuit.
+
+    Parameters
+    ----------
+    c : Circuit
+        A circuit whose devices all have their small-signal parameters.
+    quantity : str
+    rout : one of :data:`ROUT_ORDER`
+        The Rout measurement.
+    base : list of Element, optional
+        The small-signal network, when the caller has built it already.
+
+    Raises
+    ------
+    QuantityError
+        When the circuit does not define the quantity.
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> c = loads("signal VS (a, gnd) 1 V, rs=1k\\nresistor R1 (a, gnd) 1k\\nload RL (a, gnd) 1k\\n")
+    >>> m = measurement(c, "Av")
+    >>> m.config.key, [t.name for t in m.num], [t.name for t in m.den]
+    (('signal', True), ['a', 'gnd'], ['a', 'gnd'])
+    """
+    why = why_undefined(c, quantity)
+    if why:
+        raise QuantityError(why)
+    row = TABLE[quantity]
+    if row.drive == "test":
+        cfg = configuration(c, rout, False, base)
+        if rout == "test-voltage":
+            return Measurement(quantity, cfg, _readout(c, "one", cfg), _readout(c, "i_test", cfg))
+        return Measurement(quantity, cfg, _readout(c, "v_out", cfg), None)
+    cfg = configuration(c, "signal", row.loaded, base)
+    den = None if row.den is None else _readout(c, row.den, cfg)
+    return Measurement(quantity, cfg, _readout(c, row.num, cfg), den)
+
+
+def signal_configurations(c: Circuit, base: list[Element] | None = None) -> list[Configuration]:
+    """The distinct signal-driven configurations the port quantities use, the loaded one first."""
+    base = small_signal_elements(c) if base is None else base
+    keys = dict.fromkeys(TABLE[q].loaded and c.load is not None for q in quantities(c)
+                         if TABLE[q].drive == "signal")
+    return [configuration(c, "signal", loaded, base) for loaded in sorted(keys, reverse=True)]
