@@ -149,8 +149,32 @@ def test_no_claims_is_bad_input(cli, netlist):
 
 
 def test_example_circuit_claims(cli):
+    # circuits/hydrophone_preamp.pw: a CE stage, ic = 0.5 mA, beta = 200, va = 60 V, RB = 33k || 68k,
+    # RC = 10k, RF = 22k, rs = 2k. Hand values: gm = ic/V_T, rpi = beta/gm, ro = va/ic;
+    # Av = -gm (ro || RC || RF), Rin = RB || rpi, Gv = Rin/(Rin + rs) Av (Sedra & Smith 7th ed.,
+    # sections 7.2 and 7.3.3, from memory); V_T = kT/q at 300 K from CODATA (scipy.constants)
+    from scipy.constants import elementary_charge, k
     from conftest import CIRCUITS
     r = cli("check", CIRCUITS / "hydrophone_preamp.pw", "--json")
-    data = json.loads(r.stdout)
-    assert r.returncode == (0 if all(c["holds"] for c in data["claims"]) else 1)
-    assert len(data["claims"]) >= 3
+    assert r.returncode == 1, r.stderr  # the last claim is planted to fail
+    claims = json.loads(r.stdout)["claims"]
+    vt = k * 300.0 / elementary_charge
+    gm, beta, ro = 0.5e-3 / vt, 200.0, 60.0 / 0.5e-3
+    rpi, rb, rc, rf, rs = beta / gm, 33e3 * 68e3 / 101e3, 10e3, 22e3, 2e3
+    par = lambda *x: 1 / sum(1 / v for v in x)  # noqa: E731
+    av, rin = -gm * par(ro, rc, rf), par(rb, rpi)
+    gv = rin / (rin + rs) * av
+    want = [  # (line, quantity, kind, holds, exact value, claimed value, exact_when)
+        (14, "Av", "exact", True, av, -gm * par(ro, par(rc, rf)), []),
+        (15, "Av", "approx", True, av, -gm * par(rc, rf), ["Q1.ro -> oo"]),
+        (16, "Rin", "exact", True, rin, par(rb, rpi), []),
+        (17, "Gv", "approx", False, gv, -gm * par(rc, rf), ["Q1.ro -> oo and VH.rs -> 0"]),
+    ]
+    assert len(claims) == len(want)
+    for c, (line, qty, kind, holds, value, claimed, when) in zip(claims, want):
+        assert (c["line"], c["quantity"], c["kind"], c["holds"], c["exact_when"]) == (line, qty, kind, holds, when)
+        assert c["value"]["re"] == pytest.approx(value, rel=1e-9)
+        assert c["claimed"]["re"] == pytest.approx(claimed, rel=1e-9)
+        assert c["rel_error"] == pytest.approx(abs(claimed - value) / abs(value), rel=1e-6, abs=1e-12)
+        if kind == "approx":  # the verdict follows from the hand numbers and the stated tolerance
+            assert holds == (abs(claimed - value) / abs(value) <= c["tolerance"])

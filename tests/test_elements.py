@@ -51,6 +51,7 @@ def test_pnp_has_the_npn_small_signal_model():
     base = "signal VS (b, gnd) 1 V, rs=1k\n{k} Q1 (c, b, gnd) ic={ic}, beta=80, va=40\nload RL (c, gnd) 3k\n"
     a = gv(base.format(k="npn", ic="2 mA"))
     b = gv(base.format(k="pnp", ic="-2 mA"))
+    assert set(a) == set(b) == {"Rin", "Rout", "Avo", "Av", "Gv", "Gvo", "Ai"}
     for key in a:
         assert a[key] == pytest.approx(b[key], rel=1e-12)
 

@@ -253,6 +253,7 @@ load RL (c, gnd) 10k
 """
         a = solve(loads(base.replace("MODEL", "hybrid-pi")), f).quantities
         b = solve(loads(base.replace("MODEL", "t")), f).quantities
+        assert set(a) == set(b) == {"Rin", "Rout", "Avo", "Av", "Gv", "Gvo", "Ai"}
         for k in a:
             assert abs(a[k] - b[k]) <= 1e-9 * abs(a[k]), k
 
