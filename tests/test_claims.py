@@ -39,7 +39,8 @@ def test_exact_claim_holds_identically():
 
 
 def test_exact_claim_refuted_with_the_limit_that_fixes_it():
-    # dropping ro is the textbook simplification: exact only when ro -> oo
+    # dropping ro is the textbook simplification (Sedra & Smith 7th ed., 7.3.3, from memory): exact
+    # only when ro -> oo
     _, (v,) = verdicts(CE + "claim Av = -Q1.gm*(RC || RL)\n")
     assert not v.holds and not v.exact
     assert v.exact_when == ["Q1.ro -> oo"]
@@ -51,12 +52,15 @@ def test_exact_claim_refuted_with_the_limit_that_fixes_it():
 
 
 def test_pair_of_limits():
-    # -gm*RC needs both ro -> oo and RL -> oo (an unloaded, ideal-output CE)
+    # -gm*RC needs both ro -> oo and RL -> oo (an unloaded, ideal-output CE; Sedra & Smith 7th ed.,
+    # 7.3.3, from memory)
     _, (v,) = verdicts(CE + "claim Av = -Q1.gm*RC\n")
     assert v.exact_when == ["Q1.ro -> oo and RL -> oo"]
 
 
 def test_approximate_claim_tolerance_both_ways():
+    # Av = -gm (ro || RC || RL) against the claimed -gm (RC || RL) (Sedra & Smith 7th ed., 7.3.3,
+    # from memory)
     gm, ro, rc, rl = 40e-3, 100e3, 5e3, 10e3
     err = abs(-gm * rc * rl / (rc + rl) / (-gm / (1 / ro + 1 / rc + 1 / rl)) - 1)  # about 3.3 %
     _, (ok, bad) = verdicts(CE + "claim Av ~ -Q1.gm*(RC || RL) within 5%\n"
@@ -95,6 +99,7 @@ def test_degeneration_formula_exact_when_gm_large():
 
 def test_identical_and_exact_when_primitives():
     import sympy
+    # a || b = ab/(a + b) = 1/(1/a + 1/b) (definition of the parallel combination, from memory)
     a, b = S("RA"), S("RB")
     assert identical(a * b / (a + b), 1 / (1 / a + 1 / b))
     assert not identical(a * b / (a + b), a)
@@ -121,13 +126,14 @@ def test_check_exit_codes_and_json(cli, netlist):
     assert r.returncode == 1, r.stderr
     data = json.loads(r.stdout)
     first, second = data["claims"]
+    # RFC 8259 JSON; the field names are the ones documented for `portwise check --json`
     assert set(first) >= {"line", "quantity", "kind", "holds", "value", "claimed", "rel_error", "tolerance",
                           "exact_when"}
     assert first["line"] == 6 and first["kind"] == "exact" and first["holds"] is False
     assert first["exact_when"] == ["Q1.ro -> oo"]
     assert first["exact_expression"] == "-Q1.gm*(Q1.ro || RC || RL)"
     assert second["kind"] == "approx" and second["tolerance"] == pytest.approx(0.1)
-    ro, rc = 100e3, 5e3
+    ro, rc = 100e3, 5e3  # CE output resistance Rout = ro || RC (Sedra & Smith 7th ed., 7.3.3, from memory)
     assert second["value"]["re"] == pytest.approx(ro * rc / (ro + rc))
     assert second["holds"] is True
     r = cli("check", bad)

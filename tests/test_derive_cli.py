@@ -79,9 +79,10 @@ def test_solve_shows_symbolic_forms_for_small_circuits(cli, netlist):
     assert "= -Q1.gm" not in plain.stdout
 
 
-def test_expand_bias_matches_the_numeric_engine(cli):
+def test_expand_bias_matches_the_closed_form(cli):
     # gm = ic/V_T, ro = va/ic (Sedra & Smith 7th ed., 7.2.1-7.2.4, from memory); V_T = kT/q with
-    # CODATA constants (scipy.constants) at the default 300 K
+    # CODATA constants (scipy.constants) at the default 300 K; the outside reference is the CE
+    # gain Av = -gm (ro || RC || RF) (same book, 7.3.3), the numeric engine a consistency check
     from scipy.constants import elementary_charge, k
     import solver
     from conftest import CIRCUITS
@@ -93,6 +94,9 @@ def test_expand_bias_matches_the_numeric_engine(cli):
     loc = {name: sympy.Symbol(name, positive=True) for name in d["symbols"]}
     e = sympy.parse_expr(d["sympy"], local_dict=loc)  # trusted: the program's own output
     got = float(e.subs({loc[n]: v for n, v in values.items() if n in loc}))
+    vt = values["V_T"]
+    gm, ro = 0.5e-3 / vt, 60.0 / 0.5e-3
+    assert got == pytest.approx(-gm / (1 / ro + 1 / 10e3 + 1 / 22e3), rel=1e-9)
     ref = solver.solve(solver.load(CIRCUITS / "hydrophone_preamp.pw")).quantities["Av"].real
     assert got == pytest.approx(ref, rel=1e-9)
 

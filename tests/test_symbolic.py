@@ -1,9 +1,13 @@
-"""Symbolic engine: textbook closed forms, cross-check with the numeric engine, printing.
+"""Symbolic engine: textbook closed forms, consistency with the numeric engine, printing.
 
 Closed forms are from A. S. Sedra, K. C. Smith, *Microelectronic Circuits*, 7th ed.
 (chapter 7 BJT and MOSFET stages, chapter 2 op-amp circuits) and B. Razavi,
 *Design of Analog CMOS Integrated Circuits*, chapter 3 (single-stage amplifiers),
 all from memory. Each check is an identity of rational functions (sympy cancel).
+
+The comparisons with the numeric engine (and hybrid-pi against T model, one backend
+against another) are consistency checks: both sides come from the same stamps, so they
+catch a broken engine but not a wrong stamp; the closed forms are the outside references.
 """
 from __future__ import annotations
 
@@ -92,8 +96,8 @@ def test_common_base_t_model():
     assert same(q["Rout"], RC)
 
 
-def test_hybrid_pi_and_t_model_agree_symbolically():
-    # the two models are one two-port (Sedra & Smith 7th ed., section 7.2.5, from memory):
+def test_hybrid_pi_and_t_model_are_consistent_symbolically():
+    # consistency check (same stamping engine, two drawings): the two models are one two-port (Sedra & Smith 7th ed., section 7.2.5, from memory):
     # substituting gm = alpha/re, rpi = re/(1 - alpha) maps one result onto the other
     net = ("signal VS (b, gnd) 1 mV, rs=600\nnpn Q1 (c, b, e) gm=40m, rpi=2k5{m}\nresistor RE (e, gnd) 200\n"
            "resistor RC (c, gnd) 5k\nload RL (c, gnd) 10k\n")
@@ -169,7 +173,7 @@ def test_miller_zero_of_common_emitter():
     assert sympy.simplify(num.subs(s, gm / cmu)) == 0
 
 
-# --- two engines cross-checked on random circuits ------------------------------------------
+# --- consistency of the two engines on random circuits (same stamps, not independent) -------
 def random_circuit(rnd: random.Random) -> str:
     nodes = ["in", "a", "b", "c"]
     lines = [f"signal VS (in, gnd) 1 mV, rs={rnd.uniform(50, 5000):.4g}"]
@@ -192,9 +196,10 @@ def random_circuit(rnd: random.Random) -> str:
 
 
 @pytest.mark.parametrize("seed", range(8))
-def test_symbolic_equals_numeric_on_random_circuits(seed):
-    # two engines cross-checked: the symbolic result evaluated at the netlist values equals
-    # scipy.sparse.linalg.splu's solve of the same stamps (solver.analysis.ports)
+def test_symbolic_and_numeric_engines_are_consistent_on_random_circuits(seed):
+    # consistency check, not an independent reference: the symbolic result evaluated at the
+    # netlist values equals scipy.sparse.linalg.splu's solve of the same stamps
+    # (solver.analysis.ports); the random RC networks of test_robustness.py meet a hand-built matrix
     rnd = random.Random(seed)
     c = solver.loads(random_circuit(rnd))
     f = rnd.choice([0.0, 1e3, 1e6])
@@ -212,6 +217,7 @@ def test_symbolic_equals_numeric_on_random_circuits(seed):
 
 
 def test_keep_and_numeric_give_the_same_values():
+    # consistency check: keeping symbols or substituting numbers first gives the same value
     rnd = random.Random(11)
     c = solver.loads(random_circuit(rnd))
     values = symbol_values(c)
@@ -224,6 +230,7 @@ def test_keep_and_numeric_give_the_same_values():
 
 
 def test_compact_form_equals_exact():
+    # consistency check: the compact (nested) form and the expanded form are one function
     from tests.bench.bench_symbolic import cascade
     c = solver.loads(cascade(2))
     values = symbol_values(c)
@@ -351,7 +358,7 @@ def test_dominant_terms_error_bound(tol):
 
 
 def test_pure_python_backend_gives_the_same_quantities(monkeypatch):
-    # the sympy PolyRing fallback (no python-flint) must give the same exact results
+    # consistency check: the sympy PolyRing fallback (no python-flint) must give the same exact results
     import solver.engine.symbolic.ring as ring
     net = ("signal VS (b, gnd) 1 mV, rs=1k\nnpn Q1 (c, b, e) gm=40m, rpi=2k5, ro=100k, cmu=1p\n"
            "resistor RE (e, gnd) 100\nresistor RC (c, gnd) 5k\nload RL (c, gnd) 10k\n")
