@@ -235,7 +235,7 @@ def test_endless_input_is_cut_at_the_size_limit(monkeypatch):
 def test_windows_line_endings_and_tabs(netlist):
     p = netlist("signal\tVS (in, gnd) 1 V, rs=50\r\nresistor R1 (in, out) 1k\r\nload RL (out, gnd)\t1k\r\n")
     r = api.solve(api.load(p))
-    assert abs(r.quantities["Gv"] - 1e3 / 2050) < 1e-12  # voltage divider 1k/(50 + 1k + 1k)
+    assert abs(r.quantities["Gv"] - 1e3 / 2050) < 1e-12  # voltage divider 1k/(50 + 1k + 1k) (Ohm's law; no source)
 
 
 def test_directory_is_not_a_netlist(tmp_path, cli):
