@@ -39,7 +39,8 @@ def test_exact_claim_holds_identically():
 
 
 def test_exact_claim_refuted_with_the_limit_that_fixes_it():
-    # dropping ro is the textbook simplification: exact only when ro -> oo
+    # dropping ro is the textbook simplification (Sedra & Smith 7th ed., 7.3.3, from memory): exact
+    # only when ro -> oo
     _, (v,) = verdicts(CE + "claim Av = -Q1.gm*(RC || RL)\n")
     assert not v.holds and not v.exact
     assert v.exact_when == ["Q1.ro -> oo"]
@@ -51,12 +52,15 @@ def test_exact_claim_refuted_with_the_limit_that_fixes_it():
 
 
 def test_pair_of_limits():
-    # -gm*RC needs both ro -> oo and RL -> oo (an unloaded, ideal-output CE)
+    # -gm*RC needs both ro -> oo and RL -> oo (an unloaded, ideal-output CE; Sedra & Smith 7th ed.,
+    # 7.3.3, from memory)
     _, (v,) = verdicts(CE + "claim Av = -Q1.gm*RC\n")
     assert v.exact_when == ["Q1.ro -> oo and RL -> oo"]
 
 
 def test_approximate_claim_tolerance_both_ways():
+    # Av = -gm (ro || RC || RL) against the claimed -gm (RC || RL) (Sedra & Smith 7th ed., 7.3.3,
+    # from memory)
     gm, ro, rc, rl = 40e-3, 100e3, 5e3, 10e3
     err = abs(-gm * rc * rl / (rc + rl) / (-gm / (1 / ro + 1 / rc + 1 / rl)) - 1)  # about 3.3 %
     _, (ok, bad) = verdicts(CE + "claim Av ~ -Q1.gm*(RC || RL) within 5%\n"
@@ -95,6 +99,7 @@ def test_degeneration_formula_exact_when_gm_large():
 
 def test_identical_and_exact_when_primitives():
     import sympy
+    # a || b = ab/(a + b) = 1/(1/a + 1/b) (definition of the parallel combination, from memory)
     a, b = S("RA"), S("RB")
     assert identical(a * b / (a + b), 1 / (1 / a + 1 / b))
     assert not identical(a * b / (a + b), a)
@@ -121,13 +126,14 @@ def test_check_exit_codes_and_json(cli, netlist):
     assert r.returncode == 1, r.stderr
     data = json.loads(r.stdout)
     first, second = data["claims"]
+    # RFC 8259 JSON; the field names are the ones documented for `portwise check --json`
     assert set(first) >= {"line", "quantity", "kind", "holds", "value", "claimed", "rel_error", "tolerance",
                           "exact_when"}
     assert first["line"] == 6 and first["kind"] == "exact" and first["holds"] is False
     assert first["exact_when"] == ["Q1.ro -> oo"]
     assert first["exact_expression"] == "-Q1.gm*(Q1.ro || RC || RL)"
     assert second["kind"] == "approx" and second["tolerance"] == pytest.approx(0.1)
-    ro, rc = 100e3, 5e3
+    ro, rc = 100e3, 5e3  # CE output resistance Rout = ro || RC (Sedra & Smith 7th ed., 7.3.3, from memory)
     assert second["value"]["re"] == pytest.approx(ro * rc / (ro + rc))
     assert second["holds"] is True
     r = cli("check", bad)
@@ -149,8 +155,32 @@ def test_no_claims_is_bad_input(cli, netlist):
 
 
 def test_example_circuit_claims(cli):
+    # circuits/hydrophone_preamp.pw: a CE stage, ic = 0.5 mA, beta = 200, va = 60 V, RB = 33k || 68k,
+    # RC = 10k, RF = 22k, rs = 2k. Hand values: gm = ic/V_T, rpi = beta/gm, ro = va/ic;
+    # Av = -gm (ro || RC || RF), Rin = RB || rpi, Gv = Rin/(Rin + rs) Av (Sedra & Smith 7th ed.,
+    # sections 7.2 and 7.3.3, from memory); V_T = kT/q at 300 K from CODATA (scipy.constants)
+    from scipy.constants import elementary_charge, k
     from conftest import CIRCUITS
     r = cli("check", CIRCUITS / "hydrophone_preamp.pw", "--json")
-    data = json.loads(r.stdout)
-    assert r.returncode == (0 if all(c["holds"] for c in data["claims"]) else 1)
-    assert len(data["claims"]) >= 3
+    assert r.returncode == 1, r.stderr  # the last claim is planted to fail
+    claims = json.loads(r.stdout)["claims"]
+    vt = k * 300.0 / elementary_charge
+    gm, beta, ro = 0.5e-3 / vt, 200.0, 60.0 / 0.5e-3
+    rpi, rb, rc, rf, rs = beta / gm, 33e3 * 68e3 / 101e3, 10e3, 22e3, 2e3
+    par = lambda *x: 1 / sum(1 / v for v in x)  # noqa: E731
+    av, rin = -gm * par(ro, rc, rf), par(rb, rpi)
+    gv = rin / (rin + rs) * av
+    want = [  # (line, quantity, kind, holds, exact value, claimed value, exact_when)
+        (14, "Av", "exact", True, av, -gm * par(ro, par(rc, rf)), []),
+        (15, "Av", "approx", True, av, -gm * par(rc, rf), ["Q1.ro -> oo"]),
+        (16, "Rin", "exact", True, rin, par(rb, rpi), []),
+        (17, "Gv", "approx", False, gv, -gm * par(rc, rf), ["Q1.ro -> oo and VH.rs -> 0"]),
+    ]
+    assert len(claims) == len(want)
+    for c, (line, qty, kind, holds, value, claimed, when) in zip(claims, want):
+        assert (c["line"], c["quantity"], c["kind"], c["holds"], c["exact_when"]) == (line, qty, kind, holds, when)
+        assert c["value"]["re"] == pytest.approx(value, rel=1e-9)
+        assert c["claimed"]["re"] == pytest.approx(claimed, rel=1e-9)
+        assert c["rel_error"] == pytest.approx(abs(claimed - value) / abs(value), rel=1e-6, abs=1e-12)
+        if kind == "approx":  # the verdict follows from the hand numbers and the stated tolerance
+            assert holds == (abs(claimed - value) / abs(value) <= c["tolerance"])

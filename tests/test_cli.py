@@ -32,6 +32,8 @@ def test_solve_json_shape(cli):
 def test_infinite_is_a_string(cli, netlist):
     p = netlist("signal VS (i, gnd) 1 V\nopamp U1 (o, i, o)\noutput (o, gnd)\n")
     data = json.loads(cli("solve", p, "--json").stdout)
+    # an ideal op-amp follower: Rin infinite, Avo = 1 (Sedra & Smith 7th ed., section 2.3.4, from
+    # memory); JSON (RFC 8259) has no infinity, so it is written as the string "inf"
     assert data["quantities"]["Rin"]["re"] == "inf"
     assert data["quantities"]["Avo"]["re"] == pytest.approx(1.0)
 
@@ -41,7 +43,8 @@ def test_at_option(cli, netlist):
     data = json.loads(cli("solve", p, "--at", "1kHz", "--json").stdout)
     assert data["frequency_hz"] == 1000.0
     g = complex(data["quantities"]["Gv"]["re"], data["quantities"]["Gv"]["im"])
-    # first-order low-pass at its corner 1/(2 pi R C) = 1 kHz: H = 1/(1+j)
+    # first-order low-pass at its corner 1/(2 pi R C) = 1 kHz: H = 1/(1+j) (Sedra & Smith 7th ed.,
+    # section 1.6, from memory); C = 159.155 nF rounds 1/(2 pi 1k 1kHz), hence rel=1e-5
     assert g == pytest.approx(1 / (1 + 1j), rel=1e-5)
 
 

@@ -1,22 +1,8 @@
-"""The Examples sections of the reliability modules run (numpy's doctest convention)."""
+"""The demo netlists under circuits/mistakes/ report each planted mistake at its line.
+
+(The doctests of every module run in tests/test_doc_examples.py.)
+"""
 from __future__ import annotations
-
-import doctest
-
-import pytest
-
-from solver import bulk
-from solver import diagnostics
-from solver.language import expr
-from solver.engine import mna
-from solver.language import parse
-from solver.circuit import topology
-
-
-@pytest.mark.parametrize("mod", [bulk, diagnostics, expr, mna, parse, topology], ids=lambda m: m.__name__)
-def test_examples_run(mod):
-    result = doctest.testmod(mod, optionflags=doctest.ELLIPSIS)
-    assert result.failed == 0 and result.attempted >= (0 if mod is diagnostics else 1)
 
 
 def test_demo_netlist_shows_each_planted_mistake(cli):

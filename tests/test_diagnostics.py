@@ -52,30 +52,55 @@ def test_code_injection_in_an_expression_is_a_parse_error(expr):
     assert "unknown function" in ds[0].message or "unexpected" in ds[0].message
 
 
+RISKY = {"eval", "exec", "compile", "sympify", "parse_expr"}
+
+
+def risky_calls(src: str, name: str = "<sample>") -> list[str]:
+    """Calls of eval/exec/compile/sympify/parse_expr (and ``__import__`` of a computed name) in
+    ``src`` whose line carries no ``# trusted:`` note; ``re.compile`` is not one of them."""
+    lines = src.splitlines()
+    found = []
+    for node in ast.walk(ast.parse(src)):
+        if isinstance(node, ast.Call):
+            f = node.func
+            fname = f.id if isinstance(f, ast.Name) else f.attr if isinstance(f, ast.Attribute) else None
+            dynamic_import = fname == "__import__" and not all(isinstance(a, ast.Constant) for a in node.args)
+            re_compile = (isinstance(f, ast.Attribute) and fname == "compile" and isinstance(f.value, ast.Name)
+                          and f.value.id == "re")
+            if (fname in RISKY or dynamic_import) and not re_compile:
+                if "# trusted:" not in lines[node.lineno - 1]:
+                    found.append(f"{name}:{node.lineno}: {fname}")
+    return found
+
+
 def test_no_user_text_reaches_eval_exec_sympify_parse_expr():
     """Every call of eval/exec/compile/sympify/parse_expr in solver/ carries a `# trusted:` note."""
-    risky = {"eval", "exec", "compile", "sympify", "parse_expr"}
     root = Path(__file__).resolve().parent.parent / "solver"
-    found = []
-    for path in root.rglob("*.py"):
-        src = path.read_text(encoding="utf-8")
-        lines = src.splitlines()
-        for node in ast.walk(ast.parse(src)):
-            if isinstance(node, ast.Call):
-                f = node.func
-                name = f.id if isinstance(f, ast.Name) else f.attr if isinstance(f, ast.Attribute) else None
-                dynamic_import = name == "__import__" and not all(isinstance(a, ast.Constant) for a in node.args)
-                if (name in risky or dynamic_import) and not (isinstance(f, ast.Attribute) and name == "compile"
-                                          and isinstance(f.value, ast.Name) and f.value.id == "re"):
-                    if "# trusted:" not in lines[node.lineno - 1]:
-                        found.append(f"{path.name}:{node.lineno}: {name}")
+    paths = sorted(root.rglob("*.py"))
+    assert len(paths) > 20  # the walk really reads the package
+    found = [hit for path in paths for hit in risky_calls(path.read_text(encoding="utf-8"), path.name)]
     assert found == []
 
 
 def test_scanner_would_catch_an_eval():
-    # the scan above must be able to fail: the same walk finds a planted call
-    tree = ast.parse("x = eval(user_text)\n")
-    assert any(isinstance(n, ast.Call) and getattr(n.func, "id", "") == "eval" for n in ast.walk(tree))
+    # the scan above must be able to fail: the same function, on a planted sample, flags every
+    # risky call without a note and passes the noted one and re.compile
+    sample = (
+        "import re, sympy\n"
+        "from sympy.parsing.sympy_parser import parse_expr\n"
+        "x = eval(user_text)\n"
+        "exec(code)\n"
+        "y = sympy.sympify(text)\n"
+        "z = parse_expr(text)\n"
+        "m = __import__(name)\n"
+        "c = compile(src, 'f', 'exec')\n"
+        "ok = eval('1 + 1')  # trusted: a constant written here\n"
+        "pat = re.compile('a+')\n"
+        "os = __import__('os')\n"
+    )
+    assert risky_calls(sample, "planted.py") == [
+        "planted.py:3: eval", "planted.py:4: exec", "planted.py:5: sympify", "planted.py:6: parse_expr",
+        "planted.py:7: __import__", "planted.py:8: compile"]
 
 
 def test_expression_depth_limit():
@@ -87,7 +112,9 @@ def test_expression_depth_limit():
 def test_deep_parentheses_and_minus_signs_do_not_crash():
     text = f"let x = {'(' * 3000}1{')' * 3000}\nlet y = {'- ' * 3000}1\n{GOOD}"
     c = api.loads(text)  # parentheses add no tree depth; minus signs fold into the literal
-    assert c.warnings  # x and y are unused
+    got = [(d.severity, d.loc.line, d.loc.col, d.message) for d in c.warnings]
+    assert got == [("warning", 1, 5, "'x' is defined but never used"),
+                   ("warning", 2, 5, "'y' is defined but never used")]
 
 
 def test_deep_right_nesting_is_an_error_not_a_crash():
@@ -129,7 +156,10 @@ def test_control_characters_are_reported():
 
 def test_too_many_errors_are_capped():
     ds = diag_of("".join("resistor R (a b) 1k\n" for _ in range(500)))
-    assert len(ds) <= P.MAX_REPORTED + 1
+    # the first MAX_REPORTED errors at their lines, then one summary line for the rest
+    assert len(ds) == P.MAX_REPORTED + 1
+    assert [d.loc.line for d in ds[:-1]] == list(range(1, P.MAX_REPORTED + 1))
+    assert ds[-1].message == f"{500 - P.MAX_REPORTED} more errors not shown" and ds[-1].loc is None
 
 
 def test_invalid_utf8_and_empty_file(tmp_path, cli):
@@ -205,7 +235,7 @@ def test_endless_input_is_cut_at_the_size_limit(monkeypatch):
 def test_windows_line_endings_and_tabs(netlist):
     p = netlist("signal\tVS (in, gnd) 1 V, rs=50\r\nresistor R1 (in, out) 1k\r\nload RL (out, gnd)\t1k\r\n")
     r = api.solve(api.load(p))
-    assert abs(r.quantities["Gv"] - 1e3 / 2050) < 1e-12  # voltage divider 1k/(50 + 1k + 1k)
+    assert abs(r.quantities["Gv"] - 1e3 / 2050) < 1e-12  # voltage divider 1k/(50 + 1k + 1k) (Ohm's law; no source)
 
 
 def test_directory_is_not_a_netlist(tmp_path, cli):

@@ -50,9 +50,11 @@ def test_expressions_and_parallel():
     # precedence: || binds tighter than +, looser than *
     assert ev("1k + 3k || 6k") == pytest.approx(3e3)
     assert ev("2*3k || 6k") == pytest.approx(3e3)
+    # power binds tighter than unary minus and is right-associative (common mathematical
+    # convention, as in Python's own ** operator; from memory)
     assert ev("-2^2") == pytest.approx(-4)
     assert ev("2^3^2") == pytest.approx(512)  # right-associative
-    assert ev("sqrt(16) + ln(exp(2)) + log10(1000) + abs(-1)") == pytest.approx(10)
+    assert ev("sqrt(16) + ln(exp(2)) + log10(1000) + abs(-1)") == pytest.approx(10)  # 4 + 2 + 3 + 1
     assert ev("2*pi") == pytest.approx(2 * math.pi)
     assert ev("(1k || 1k || 1k)") == pytest.approx(1e3 / 3)
 
@@ -76,6 +78,8 @@ load RL (o, gnd) 1/Q1.gm
 npn Q1 (o, i, gnd) gm=40m
 """)
     r1 = next(e for e in c.elements if e.name == "R1")
+    # by hand: RA = 2*5k = 10k, RB = 10k || 10k = 5k; 1/gm = 1/40 mS = 25 ohm (arithmetic; common
+    # practice, no source)
     assert r1.value == pytest.approx(5e3)
     assert c.load.value == pytest.approx(25.0)
 
@@ -95,7 +99,7 @@ def test_value_errors(text, message):
 
 
 def test_an_undefined_name_is_never_read_as_an_rkm_code():
-    # IEC 60062 writes 0.47 Ω as R47; in an expression a name starting with a letter is a name, so
+    # IEC 60062:2016 (clause 4, from memory) writes 0.47 Ω as R47; in an expression a name starting with a letter is a name, so
     # the value is written with a leading digit (0R47) and an undefined R47 is an error
     with pytest.raises(InputError) as e:
         loads("signal VS (a, gnd) 1 V\nresistor RX (a, b) R47\nload RL (b, gnd) 1k\n")

@@ -197,13 +197,29 @@ def test_random_bytes_end_cleanly(tmp_path_factory, data):
     assert_clean(code, err, path)
 
 
-def test_real_process_never_shows_a_traceback(cli, tmp_path):
-    # a few fixed mutants through a real `python -m solver` process
-    for k, text in enumerate([SEED.replace("6k8", "6k8 F"), SEED.replace(")", "", 1), SEED[:200],
-                              SEED.replace("Q1.re", "Q1.rx.gm"), "\x00\x01binary\n", SEED + "end\n"]):
+FIXED_MUTANTS = [SEED.replace("6k8", "6k8 F"), SEED.replace(")", "", 1), SEED[:200],
+                 SEED.replace("Q1.re", "Q1.rx.gm"), "\x00\x01binary\n", SEED + "end\n"]
+
+
+def test_fixed_mutants_end_cleanly_in_process(tmp_path):
+    codes = []
+    for k, text in enumerate(FIXED_MUTANTS):
         p = tmp_path / f"m{k}.pw"
         p.write_text(text, encoding="utf-8")
-        r = cli("solve", p)
+        code, _, err = run_main(p)
+        assert_clean(code, err, p)
+        codes.append(code)
+    assert codes == [2] * len(FIXED_MUTANTS)  # every one is bad input: a diagnostic, exit 2
+
+
+def test_real_process_never_shows_a_traceback(real_cli, tmp_path):
+    # a few fixed mutants through a real `python -m solver` process (the in-process runs above
+    # cannot see what the interpreter itself would print on an uncaught exception)
+    # (three of them: a unit error, a syntax error, binary bytes; the in-process runs cover the rest)
+    for k, text in enumerate([FIXED_MUTANTS[0], FIXED_MUTANTS[1], FIXED_MUTANTS[4]]):
+        p = tmp_path / f"m{k}.pw"
+        p.write_text(text, encoding="utf-8")
+        r = real_cli("solve", p)
         assert r.returncode in (0, 2) and "Traceback" not in r.stderr
 
 

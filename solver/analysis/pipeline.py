@@ -146,9 +146,9 @@ def prepare(c: Circuit, purpose: str = "ports", view: str = "ac", force: bool = 
     Examples
     --------
     >>> c = loads("supply VCC (vcc, gnd) 9 V\\nresistor R1 (vcc, b) 10k\\nresistor R2 (b, gnd) 10k\\n")
-    >>> p = prepare(c, "bias")
-    >>> round(p.bias.nodes["b"], 3), p.circuit is c
-    (4.5, True)
+    >>> p = prepare(c, "bias")  # no signal and no output port: a bias network alone
+    >>> round(p.bias.nodes["b"], 3), round(p.bias.supplies["VCC"], 9)
+    (4.5, 0.00045)
     """
     if purpose not in PURPOSES:
         raise ValueError(f"purpose is one of {PURPOSES}")
