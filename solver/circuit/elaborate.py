@@ -273,6 +273,7 @@ class Resolver:
             params[p.key] = v.x
         names = spec.terminals.split()
         nodes = {t: self.node(n, entry.scope) for t, n in zip(names, st.groups[0])}
+        _check_current_sign(st, params)
         dev = Device(st.keyword, entry.full, nodes, params, model, st.loc)
         if st.keyword != "opamp":
             from solver.circuit.devices import needs_bias
@@ -298,6 +299,22 @@ _QDIMS = {"gm": U.SIEMENS, "gmb": U.SIEMENS, "rpi": U.OHM, "ro": U.OHM, "re": U.
           "rd": U.OHM, "beta": U.ONE, "alpha": U.ONE, "cpi": U.FARAD, "cmu": U.FARAD, "cgs": U.FARAD,
           "cgd": U.FARAD, "cj": U.FARAD, "ic": U.AMP, "id": U.AMP, "vt": U.VOLT, "vov": U.VOLT,
           "lambda": U.PER_VOLT, "ft": U.HERTZ}
+
+
+def _check_current_sign(st: ElementStmt, params: dict) -> None:
+    """The sign convention of ic= and id=: the bias current's magnitude for every polarity.
+
+    A pnp or pmos may also be given the signed value of the bias report (current into the
+    collector or drain, negative in the amplifying region): -1.5 mA and 1.5 mA mean the same.
+    An npn or nmos conducts into its collector or drain, so a negative value there is a
+    mistake, not a convention.
+    """
+    key = {"npn": "ic", "nmos": "id"}.get(st.keyword)
+    if key and params.get(key, 0.0) < 0:
+        p = next(p for p in st.params if p.key == key)
+        raise error(p.value.loc, f"{key}= of an {st.keyword} is the current into its "
+                    f"{'collector' if key == 'ic' else 'drain'}, positive in the amplifying region "
+                    f"(got {params[key]:g} A); a negative {key}= is for a p-type device")
 
 
 def _model_name(p: Param) -> str:
