@@ -585,66 +585,79 @@ class _Elaborator:
         return v
 
     def _element(self, s: ElementStmt, entry: Entry, scope: Scope, top: bool):
+        """Build one element statement into the circuit: a device, the signal, a supply, the
+        load, or a linear primitive."""
         if not self._check_shape(s):
             return
         kw = s.keyword
-        node = lambda n: self.res.node(n, scope)  # noqa: E731
-        nodes = [tuple(node(n) for n in g) for g in s.groups]
-        c = self.circuit
-        full = entry.full
+        nodes = [tuple(self.res.node(n, scope) for n in g) for g in s.groups]
         if kw in ("npn", "pnp", "nmos", "pmos", "diode", "opamp"):
-            dev = self.res.device(entry)
-            if kw == "opamp":
-                gain = dev.params.get("gain")
-                fp = _opamp_pole(s, dev.params)
-                if gain is None:
-                    c.elements.append(Nullor(full, nodes[0], 0.0, None, full, s.loc))
-                elif fp is None:
-                    out, inp, inn = nodes[0]
-                    c.elements.append(VCVS(full, (out, "gnd"), gain, f"{full}.gain", full, s.loc,
-                                           ctrl=(inp, inn)))
-                else:
-                    c.elements.extend(_single_pole_opamp(full, nodes[0], gain, fp, s.loc))
-                return
-            if kw in ("nmos", "pmos") and len(nodes[0]) == 4 and nodes[0][3] == nodes[0][2]:
-                del dev.nodes["B"]
+            self._device(s, entry, nodes)
+        elif kw == "signal":
+            self._signal(s, entry, nodes, top)
+        elif kw == "supply":
+            v = self._value(s, entry)
+            kind = "A" if v.dim == U.AMP else "V"
+            short = VoltageSource(entry.full, nodes[0], 0.0, None, entry.full, s.loc) if kind == "V" else None
+            self.circuit.supplies.append(Supply(entry.full, nodes[0], kind, v.x, s.loc, short))
+        elif kw == "load":
+            self._load(s, entry, nodes, top)
+        else:
+            self._linear(s, entry, nodes, scope)
+
+    def _device(self, s: ElementStmt, entry: Entry, nodes):
+        c, full = self.circuit, entry.full
+        dev = self.res.device(entry)
+        if s.keyword != "opamp":
+            if s.keyword in ("nmos", "pmos") and len(nodes[0]) == 4 and nodes[0][3] == nodes[0][2]:
+                del dev.nodes["B"]  # the body tied to the source: no body effect
             c.devices.append(dev)
             return
-        if kw == "signal":
-            if not top:
-                raise error(s.loc, "the signal belongs at the top level (it defines the input port)")
-            if c.signal is not None:
-                raise error(s.loc, f"a second signal (the first is '{c.signal.name}')")
-            v = self._value(s, entry)
-            rs = self.res.value_of(entry, "rs", s.loc)
-            kind = "A" if v.dim == U.AMP else "V"
-            if rs.dim not in (None, U.OHM):
-                raise error(s.params[0].value.loc, f"rs= expects Ω, got {U.dim_name(rs.dim)}")
-            if rs.x < 0:
-                raise error(s.params[0].value.loc, "rs must not be negative")
-            if kind == "A" and rs.x == 0:
-                raise error(s.params[0].value.loc, "a current signal with rs=0 is shorted")
-            c.signal = Signal(full, nodes[0], kind, v.x, rs.x, s.loc)
-            c.values[f"{full}.rs"] = rs.x
-            return
+        gain = dev.params.get("gain")
+        fp = _opamp_pole(s, dev.params)
+        if gain is None:
+            c.elements.append(Nullor(full, nodes[0], 0.0, None, full, s.loc))
+        elif fp is None:
+            out, inp, inn = nodes[0]
+            c.elements.append(VCVS(full, (out, "gnd"), gain, f"{full}.gain", full, s.loc, ctrl=(inp, inn)))
+        else:
+            c.elements.extend(_single_pole_opamp(full, nodes[0], gain, fp, s.loc))
+
+    def _signal(self, s: ElementStmt, entry: Entry, nodes, top: bool):
+        c, full = self.circuit, entry.full
+        if not top:
+            raise error(s.loc, "the signal belongs at the top level (it defines the input port)")
+        if c.signal is not None:
+            raise error(s.loc, f"a second signal (the first is '{c.signal.name}')")
         v = self._value(s, entry)
-        if kw == "supply":
-            kind = "A" if v.dim == U.AMP else "V"
-            short = VoltageSource(full, nodes[0], 0.0, None, full, s.loc) if kind == "V" else None
-            c.supplies.append(Supply(full, nodes[0], kind, v.x, s.loc, short))
-            return
-        if kw == "load":
-            if not top:
-                raise error(s.loc, "the load belongs at the top level (it defines the output port)")
-            if c.load is not None:
-                raise error(s.loc, f"a second load (the first is '{c.load.name}')")
-            if v.x == 0:
-                raise error(s.value.loc, "a load of 0 Ω shorts the output")
-            if v.x < 0:
-                self.diags.warning(s.value.loc, f"negative load value ({v.x:g})")
-            c.load = Load(full, nodes[0], v.x, s.loc)
-            c.values[full] = v.x
-            return
+        rs = self.res.value_of(entry, "rs", s.loc)
+        kind = "A" if v.dim == U.AMP else "V"
+        if rs.dim not in (None, U.OHM):
+            raise error(s.params[0].value.loc, f"rs= expects Ω, got {U.dim_name(rs.dim)}")
+        if rs.x < 0:
+            raise error(s.params[0].value.loc, "rs must not be negative")
+        if kind == "A" and rs.x == 0:
+            raise error(s.params[0].value.loc, "a current signal with rs=0 is shorted")
+        c.signal = Signal(full, nodes[0], kind, v.x, rs.x, s.loc)
+        c.values[f"{full}.rs"] = rs.x
+
+    def _load(self, s: ElementStmt, entry: Entry, nodes, top: bool):
+        c, full = self.circuit, entry.full
+        if not top:
+            raise error(s.loc, "the load belongs at the top level (it defines the output port)")
+        if c.load is not None:
+            raise error(s.loc, f"a second load (the first is '{c.load.name}')")
+        v = self._value(s, entry)
+        if v.x == 0:
+            raise error(s.value.loc, "a load of 0 Ω shorts the output")
+        if v.x < 0:
+            self.diags.warning(s.value.loc, f"negative load value ({v.x:g})")
+        c.load = Load(full, nodes[0], v.x, s.loc)
+        c.values[full] = v.x
+
+    def _linear(self, s: ElementStmt, entry: Entry, nodes, scope: Scope):
+        kw, c, full = s.keyword, self.circuit, entry.full
+        v = self._value(s, entry)
         if kw in ("resistor", "capacitor", "inductor") and v.x == 0:
             what = {"resistor": "a 0 Ω resistor is a short: join the nodes instead",
                     "capacitor": "a 0 F capacitor is an open: leave it out",

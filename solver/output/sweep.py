@@ -98,32 +98,7 @@ def text_report(sm: Summary) -> str:
         out.append(f"{title} ({len(v)}){'' if len(v) else ': none'}" + ("   rad/s, natural frequency"
                                                                           if len(v) else ""))
         out.extend(_pz_lines(v))
-    e = sm.estimates
-    if e is not None:
-        out.append("")
-        out.append("hand estimates                       estimate        exact     error")
-        err = sm.errors()
-        rows = (("f_high, open-circuit time consts", e.octc_f_high_hz, b.f_high_hz, "octc_f_high_hz", "octc"),
-                ("f_low, short-circuit time consts", e.sctc_f_low_hz, b.f_low_hz, "sctc_f_low_hz", "sctc"),
-                ("f_high, Miller approximation", e.miller_f_high_hz, b.f_high_hz, "miller_f_high_hz", "miller"))
-        for label, est, exact, key, rk in rows:
-            if est is None:
-                out.append(f"  {label:<33}  not given: {e.reasons.get(rk, 'no exact corner')}")
-                continue
-            r = err.get(key)
-            out.append(f"  {label:<33}{eng(est, 'Hz'):>12} {_hz(exact):>12} "
-                       f"{'' if r is None else f'{100 * r:+8.2f} %'}")
-        if e.miller:
-            m = e.miller
-            out.append(f"    Miller: {m['device']} gain K = {m['gain']:.4g}, C_in = {eng(m['c_in'], 'F')}, "
-                       f"R at the input = {eng(m['r_in'], 'Ω')}")
-        if e.terms:
-            out.append("  capacitor time constants (short: a short at midband, SCTC; open: OCTC)")
-            for t in e.terms:
-                r = "no finite R" if t.resistance is None else f"sees {eng(t.resistance, 'Ω')}"
-                tau = "" if t.tau is None else f"τ = {eng(t.tau, 's')}"
-                grp = "short" if t.group == "low" else "open"
-                out.append(f"    {t.name:<10} {eng(t.capacitance, 'F'):>10}  {r:<18} {tau:<16} {grp}")
+    out.extend(_estimate_lines(sm))
     if sm.notes:
         out.append("")
         out.extend(f"note: {n}" for n in sm.notes)
@@ -131,6 +106,39 @@ def text_report(sm: Summary) -> str:
     out.extend(safety_notes(c))
     out.append("The estimates are hand methods and approximate by nature. " + CAUTION)
     return "\n".join(out)
+
+
+def _estimate_lines(sm: Summary) -> list[str]:
+    """The hand estimates beside the exact corners, and the capacitor time constants."""
+    e, b = sm.estimates, sm.band
+    out: list[str] = []
+    if e is None:
+        return out
+    out.append("")
+    out.append("hand estimates                       estimate        exact     error")
+    err = sm.errors()
+    rows = (("f_high, open-circuit time consts", e.octc_f_high_hz, b.f_high_hz, "octc_f_high_hz", "octc"),
+            ("f_low, short-circuit time consts", e.sctc_f_low_hz, b.f_low_hz, "sctc_f_low_hz", "sctc"),
+            ("f_high, Miller approximation", e.miller_f_high_hz, b.f_high_hz, "miller_f_high_hz", "miller"))
+    for label, est, exact, key, rk in rows:
+        if est is None:
+            out.append(f"  {label:<33}  not given: {e.reasons.get(rk, 'no exact corner')}")
+            continue
+        r = err.get(key)
+        out.append(f"  {label:<33}{eng(est, 'Hz'):>12} {_hz(exact):>12} "
+                   f"{'' if r is None else f'{100 * r:+8.2f} %'}")
+    if e.miller:
+        m = e.miller
+        out.append(f"    Miller: {m['device']} gain K = {m['gain']:.4g}, C_in = {eng(m['c_in'], 'F')}, "
+                   f"R at the input = {eng(m['r_in'], 'Ω')}")
+    if e.terms:
+        out.append("  capacitor time constants (short: a short at midband, SCTC; open: OCTC)")
+        for t in e.terms:
+            r = "no finite R" if t.resistance is None else f"sees {eng(t.resistance, 'Ω')}"
+            tau = "" if t.tau is None else f"τ = {eng(t.tau, 's')}"
+            grp = "short" if t.group == "low" else "open"
+            out.append(f"    {t.name:<10} {eng(t.capacitance, 'F'):>10}  {r:<18} {tau:<16} {grp}")
+    return out
 
 
 def csv_text(freqs: np.ndarray, h: np.ndarray) -> str:
