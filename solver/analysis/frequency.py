@@ -136,18 +136,23 @@ def scenario(c: Circuit, quantity: str) -> Scenario:
     why = table.why_undefined(c, quantity)
     if why:
         raise ResponseError(why)
-    base = small_signal_elements(c)
-    orders = table.ROUT_ORDER if quantity == "Rout" else table.ROUT_ORDER[:1]
-    for k, rout in enumerate(orders):
-        m = table.measurement(c, quantity, rout, base)
-        sys_ = assemble(list(m.config.elements), c.ground)
-        if k + 1 < len(orders):
-            try:
-                sys_.solve(PROBE_S)
-            except SingularSystem:
-                continue  # the table's next Rout measurement
-        return Scenario(quantity, sys_, _readout(sys_, m.num), None if m.den is None else _readout(sys_, m.den))
-    raise AssertionError("unreachable")
+    systems = {}
+
+    def stamped(m):
+        if m.config.key not in systems:
+            systems[m.config.key] = assemble(list(m.config.elements), c.ground)
+        return systems[m.config.key]
+
+    def singular(m):
+        try:
+            stamped(m).solve(PROBE_S)
+            return False
+        except SingularSystem:
+            return True
+
+    m = table.chosen(c, quantity, singular, small_signal_elements(c))
+    sys_ = stamped(m)
+    return Scenario(quantity, sys_, _readout(sys_, m.num), None if m.den is None else _readout(sys_, m.den))
 
 
 def default_quantity(c: Circuit) -> str:

@@ -71,17 +71,17 @@ class _Solves:
 def measure(c: Circuit, quantity: str, s: complex, solves: _Solves | None = None) -> complex:
     """One port quantity at complex frequency s (raises SingularSystem, QuantityError)."""
     solves = solves or _Solves(c, s)
-    orders = sc.ROUT_ORDER if quantity == "Rout" else (sc.ROUT_ORDER[0],)
-    for k, rout in enumerate(orders):
-        m = sc.measurement(c, quantity, rout, solves.base)
+
+    def singular(m):
         try:
-            system, x = solves(m)
+            solves(m)
+            return False
         except SingularSystem:
-            if k + 1 < len(orders):
-                continue  # the table's next Rout measurement
-            raise
-        return ratio(read(system, x, m.num), read(system, x, m.den) if m.den else 1.0)
-    raise AssertionError("unreachable")
+            return True
+
+    m = sc.chosen(c, quantity, singular, solves.base)
+    system, x = solves(m)
+    return ratio(read(system, x, m.num), read(system, x, m.den) if m.den else 1.0)
 
 
 def port_quantities(c: Circuit, frequency_hz: float, which=None) -> PortResult:

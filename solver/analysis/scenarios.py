@@ -276,6 +276,22 @@ def measurement(c: Circuit, quantity: str, rout: str = ROUT_ORDER[0],
     return Measurement(quantity, cfg, _readout(c, row.num, cfg), den)
 
 
+def chosen(c: Circuit, quantity: str, singular, base: list[Element] | None = None) -> Measurement:
+    """The measurement of ``quantity`` after the table's rule for Rout, with each engine's test.
+
+    ``singular(m)`` says whether a measurement's system is singular in the caller's engine
+    (numeric at the analysis frequency, at a probe frequency for a sweep, an identically
+    zero determinant for the symbolic engine). Rout takes the first of :data:`ROUT_ORDER`
+    that is not singular, the last one regardless; every other quantity has one measurement.
+    """
+    orders = ROUT_ORDER if TABLE[quantity].drive == "test" else ROUT_ORDER[:1]
+    for k, rout in enumerate(orders):
+        m = measurement(c, quantity, rout, base)
+        if k + 1 == len(orders) or not singular(m):
+            return m
+    raise AssertionError("unreachable")
+
+
 def signal_configurations(c: Circuit, base: list[Element] | None = None) -> list[Configuration]:
     """The distinct signal-driven configurations the port quantities use, the loaded one first."""
     base = small_signal_elements(c) if base is None else base

@@ -206,15 +206,10 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
     for q in table.quantities(c):
         if which is not None and q not in which:
             continue
-        orders = table.ROUT_ORDER if q == "Rout" else table.ROUT_ORDER[:1]
-        for k, rout in enumerate(orders):
-            m = table.measurement(c, q, rout, base)
-            s = stamped(m)
-            if k + 1 < len(orders) and s.det == 0:
-                continue  # singular for every value: the table's next Rout measurement
-            num = s.read(m.num)
-            den = s.read(m.den) if m.den is not None else s.det
-            break
+        m = table.chosen(c, q, lambda m: stamped(m).det == 0, base)  # singular for every value
+        s = stamped(m)
+        num = s.read(m.num)
+        den = s.read(m.den) if m.den is not None else s.det
         if domain is not None:
             result[q] = num / den
         else:
