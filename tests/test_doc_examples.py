@@ -7,7 +7,7 @@ import importlib
 import pytest
 
 
-@pytest.mark.parametrize("name", ["solver.analysis.frequency", "solver.analysis.timeconstants", "solver.analysis.twoport", "solver.output.plot", "solver.language.firstchars", "solver.bulk"])
+@pytest.mark.parametrize("name", ["solver.analysis.frequency", "solver.analysis.timeconstants", "solver.analysis.twoport", "solver.output.plot", "solver.bulk"])
 def test_examples_run(name):
     mod = importlib.import_module(name)
     result = doctest.testmod(mod, optionflags=doctest.NORMALIZE_WHITESPACE)
