@@ -143,6 +143,7 @@ LINES = [
     "resistor R{i} \\\n  (a{i}, a{j}) 1k",
     "resistor R{i} (a{i}, a{j}) 1k  # comment\n\n# only a comment\n",
     "resistor R{i} (a{i}, resistor) 1k",
+    'resistor R{i} (a{i}, a{j}) 1k  # the "main" arm',
     "resistor R{i} (output, within) end",
     # near misses: lark's call, whatever it is
     "resistorR{i} (a, b) 1k",
@@ -171,6 +172,14 @@ def test_generated_netlists(seed, eol):
     out = [rng.choice(picks).format(i=i, j=i + 1, k=i % 4) for i in range(rng.randint(1, 40))]
     text = eol.join(out) + (eol if rng.random() < 0.8 else "")
     _same(text)
+
+
+def test_many_declined_lines_go_to_lark_as_a_whole():
+    # lines lark takes and the fast path does not (a keyword run into the name): past the
+    # hundredth, lark reads the whole text at once
+    text = "".join(f"resistorR{i} (a{i}, a{i + 1}) 1k\n" for i in range(300))
+    _same(text)
+    assert len(P.parse(text).statements) == 300
 
 
 # --- random expressions -----------------------------------------------------------------------

@@ -123,14 +123,15 @@ class _Fast:
     def statement(self, raw: str, line: int):
         """The statement of one physical line, None for a blank line, or :class:`_Decline`."""
         self.line = line
-        if '"' in raw:
+        hash_at = raw.find("#")  # a comment, unless a string is open before it
+        body = raw if hash_at < 0 else raw[:hash_at]
+        if '"' in body:
             m = _TITLE.fullmatch(raw)
             if m is None:
                 raise _DECLINE
             tok = m.group(1)
             return Title(re.sub(r"\\(.)", r"\1", tok[1:-1]), self.loc(m.start(1) + 1, tok))
-        hash_at = raw.find("#")
-        body = (raw if hash_at < 0 else raw[:hash_at]).rstrip(" \t\f")
+        body = body.rstrip(" \t\f")
         if not body:
             if _BLANK_LINE.fullmatch(raw) is None:
                 raise _DECLINE  # (a form feed on a line of its own: a double _NL for the grammar)
@@ -356,6 +357,9 @@ _MAKE = {  # rule -> statement from (fast path, keyword, its column, the parts' 
 }
 
 
+_MOST_DECLINED = 100  # beyond this, lark reads the whole text (each line alone costs its line number)
+
+
 def _fast_statements(text: str, file: str):
     """The statements of ``text`` by the fast path, lark reading the lines it declines alone;
     None when lark must read the whole text (a continued line, a line lark rejects)."""
@@ -365,13 +369,14 @@ def _fast_statements(text: str, file: str):
         lines = text.replace("\r\n", "\n").split("\n")
     else:
         lines = text.split("\n")
-    fast, stmts = _Fast(file), []
+    fast, stmts, declined = _Fast(file), [], 0
     statement, append = fast.statement, stmts.append
     for lineno, raw in enumerate(lines, 1):
         try:
             stmt = statement(raw, lineno)
         except _Decline:
-            if "\\" in raw:
+            declined += 1
+            if "\\" in raw or declined > _MOST_DECLINED:
                 return None  # (a continuation joins lines; lark reads the whole text)
             try:  # the line alone, on its own line number (blank lines before it)
                 got = _run("start", "\n" * (lineno - 1) + raw + "\n", file)
