@@ -79,7 +79,7 @@ def test_operators_are_the_grammars(terminals):
     for name, ops in P.OPERATORS.items():
         regexp = re.compile(terminals[name].to_regexp())
         assert {c for c in candidates if regexp.fullmatch(c)} == set(ops), name
-    strings = {p.value for p in terminals.values() if type(p).__name__ == "PatternStr"}
+    strings = {p.value for p in terminals.values() if p.type == "str"}  # literal terminals
     assert set(P.PUNCTUATION) <= strings
 
 

@@ -98,10 +98,8 @@ _DEEPEST = 100  # nesting beyond this is left to lark's iterative parser (no dee
 
 
 class _Decline(Exception):
-    """The fast path is not sure of a line: lark reads it."""
-
-
-_DECLINE = _Decline()
+    """The fast path is not sure of a line: lark reads it. (A new one each time: an instance
+    raised again would keep growing its traceback.)"""
 
 
 class _Fast:
@@ -128,13 +126,13 @@ class _Fast:
         if '"' in body:
             m = _TITLE.fullmatch(raw)
             if m is None:
-                raise _DECLINE
+                raise _Decline
             tok = m.group(1)
             return Title(re.sub(r"\\(.)", r"\1", tok[1:-1]), self.loc(m.start(1) + 1, tok))
         body = body.rstrip(" \t\f")
         if not body:
             if _BLANK_LINE.fullmatch(raw) is None:
-                raise _DECLINE  # (a form feed on a line of its own: a double _NL for the grammar)
+                raise _Decline  # (a form feed on a line of its own: a double _NL for the grammar)
             return None
         toks, col = [], 1
         for blank, q, n, o in _TOKEN.findall(body):
@@ -149,12 +147,12 @@ class _Fast:
                 toks.append((o, o, col))
                 col += len(o)
         if col != len(body) + 1:
-            raise _DECLINE  # a character no token takes
+            raise _Decline  # a character no token takes
         toks.append(("$", "", col))
         kind, kw, kw_col = toks[0]
         shape = _KEYWORDS.get(kw) if kind == "n" else None
         if shape is None:
-            raise _DECLINE
+            raise _Decline
         self.toks = toks
         self.depth = 0
         rule, parts = shape
@@ -163,7 +161,7 @@ class _Fast:
             if part == "NAME":
                 tok = toks[i]
                 if tok[0] != "n":
-                    raise _DECLINE
+                    raise _Decline
                 vals.append(tok)
                 i += 1
             elif part == "NODES":
@@ -193,17 +191,17 @@ class _Fast:
             elif part == "NODE":
                 kind, text, col = toks[i]
                 if kind not in _TAKES_NODE:
-                    raise _DECLINE
+                    raise _Decline
                 vals.append(Node(text.strip(), self.loc(col, text)))
                 i += 1
             elif part == "=":
                 if toks[i][0] != "=":
-                    raise _DECLINE
+                    raise _Decline
                 i += 1
             elif part == "CLAIM_OP":
                 tok = toks[i]
                 if tok[0] not in OPERATORS["CLAIM_OP"]:
-                    raise _DECLINE
+                    raise _Decline
                 vals.append(tok)
                 i += 1
             elif part == "WITHIN?":
@@ -212,36 +210,36 @@ class _Fast:
                     tol, i = self.expr(i + 1, 1)
                 vals.append(tol)
             else:  # pragma: no cover - a shape of the table this walker does not know
-                raise _DECLINE
+                raise _Decline
         if toks[i][0] != "$":
-            raise _DECLINE
+            raise _Decline
         if "within" in body and sum(t[1] == "within" for t in toks if t[0] == "n") != (
                 rule == "claim" and vals[3] is not None):
-            raise _DECLINE  # where lark's merged states take the name as the keyword (sensed's ref)
+            raise _Decline  # where lark's merged states take the name as the keyword (sensed's ref)
         return _MAKE[rule](self, kw, kw_col, vals)
 
     def nodes(self, i):
         toks = self.toks
         if toks[i][0] != "(":
-            raise _DECLINE
+            raise _Decline
         file, line, out = self.file, self.line, []
         while True:
             kind, text, col = toks[i + 1]
             if kind not in _TAKES_NODE:
-                raise _DECLINE
+                raise _Decline
             out.append(Node(text.strip(), _new_loc((file, line, col, len(text) or 1))))
             sep = toks[i + 2][0]
             i += 2
             if sep == ")":
                 return out, i + 1
             if sep != ",":
-                raise _DECLINE
+                raise _Decline
 
     def param(self, i):
         toks = self.toks
         kind, key, col = toks[i]
         if kind != "n" or toks[i + 1][0] != "=":
-            raise _DECLINE
+            raise _Decline
         value, i = self.expr(i + 2, 1)
         return Param(key, value, self.loc(col, key)), i
 
@@ -249,13 +247,13 @@ class _Fast:
         toks = self.toks
         kind, text, col = toks[i]
         if kind != "n":
-            raise _DECLINE
+            raise _Decline
         parts = [text]
         i += 1
         while toks[i][0] == ".":
             kind, part, _ = toks[i + 1]
             if kind != "n":
-                raise _DECLINE
+                raise _Decline
             parts.append(part)
             i += 2
         return ex.Ref(tuple(parts), self.loc(col, text)), i
@@ -277,7 +275,7 @@ class _Fast:
         if op == "-" or op == "+":
             self.depth += 1
             if self.depth > _DEEPEST:
-                raise _DECLINE
+                raise _Decline
             operand, i = self.unary(i + 1)
             self.depth -= 1
             if op == "+":
@@ -294,14 +292,14 @@ class _Fast:
             try:
                 value, dim = _quantity(text)
             except UnitError:
-                raise _DECLINE from None
+                raise _Decline from None
             atom = ex.Num(value, dim, self.loc(col, text), text)
             i += 1
         elif kind == "n":
             nxt = toks[i + 1][0]
             if nxt == "(":
                 if text not in ex.FUNCTIONS:
-                    raise _DECLINE
+                    raise _Decline
                 arg, i = self.nested(i + 2)
                 atom = ex.Call(text, arg, self.loc(col, text))
             elif nxt == ".":
@@ -312,13 +310,13 @@ class _Fast:
         elif kind == "(":
             atom, i = self.nested(i + 1)
         else:
-            raise _DECLINE
+            raise _Decline
         op, _, col = toks[i]
         if op != "^":
             return atom, i
         self.depth += 1
         if self.depth > _DEEPEST:
-            raise _DECLINE
+            raise _Decline
         right, i = self.unary(i + 1)
         self.depth -= 1
         return ex.Binary("^", atom, right, self.loc(col, op)), i
@@ -327,10 +325,10 @@ class _Fast:
         """An expression and its closing ``)``."""
         self.depth += 1
         if self.depth > _DEEPEST:
-            raise _DECLINE
+            raise _Decline
         value, i = self.expr(i, 1)
         if self.toks[i][0] != ")":
-            raise _DECLINE
+            raise _Decline
         self.depth -= 1
         return value, i + 1
 
