@@ -68,7 +68,8 @@ PUNCTUATION = ("(", ")", ",", "=", ".")
 # Statement shapes: (rule, keywords, parts after the keyword). Parts: NAME a name; NODES
 # "(" node ("," node)* ")"; NODE one node; REF NAME ("." NAME)*; EXPR an expression;
 # "=" that character; CLAIM_OP "=" or "~"; TAIL ("," param)*; PARAMS? [param ("," param)*];
-# WITHIN? ["within" expr]. The rules are those of grammar/portwise.lark of the same name.
+# WITHIN? ["within" expr]. The rules are those of grammar/portwise.lark of the same name. A title
+# line is matched whole by _TITLE (its string may hold "#"); the other rows are walked by _Fast.
 STATEMENTS = (
     ("valued", ("resistor", "capacitor", "inductor", "supply", "signal", "load"),
      ("NAME", "NODES", "EXPR", "TAIL")),
@@ -90,7 +91,8 @@ _KEYWORDS = {kw: (rule, parts) for rule, kws, parts in STATEMENTS for kw in kws 
 # skips what matches nothing, so a line is only taken when the pieces add up to all of it.
 _ops = sorted({o for ops in OPERATORS.values() for o in ops} | set(PUNCTUATION), key=len, reverse=True)
 _TOKEN = re.compile(f"((?:{BLANKS})?)(?:({QUANTITY})|({NAME})|({'|'.join(map(re.escape, _ops))}))")
-_TITLE = re.compile(f"(?:{BLANKS})?title(?:{BLANKS})?({STRING})(?:{BLANKS})?(?:#[^\\n]*)?")
+_TITLE_KW = next(kws[0] for rule, kws, _ in STATEMENTS if rule == "title")
+_TITLE = re.compile(f"(?:{BLANKS})?{_TITLE_KW}(?:{BLANKS})?({STRING})(?:{BLANKS})?(?:#[^\\n]*)?")
 _BLANK_LINE = re.compile(r"[ \t]*(?:#[^\n]*)?")  # what the grammar's _NL takes before "\n"
 _BINARY = {"+": 1, "-": 1, "||": 2, "*": 3, "/": 3}  # binding power; all left-associative
 _TAKES_NODE = ("q", "n")
