@@ -223,36 +223,35 @@ def test_real_process_never_shows_a_traceback(real_cli, tmp_path):
         assert r.returncode in (0, 2) and "Traceback" not in r.stderr
 
 
-# --- the fast LALR loop gives what lark's own loop gives -----------------------------------
+# --- the fast path gives what lark gives ---------------------------------------------------
 FRAGMENTS = ["resistor", "capacitor", "npn", "vccs", "cccs", "signal", "load", "let", "block", "end", "use",
              "claim", "title", "output", "ground", "R1", "a", "gnd", "Q1.gm", "(", ")", ",", "=", "~", "||",
              "+", "-", "*", "/", "^", "1k", "4k7", "2.2 nF", "10 mV", "1e-3", "5%", '"t"', "within", "\n",
-             " ", "\t", "# note\n", "\\\n", "sqrt", "x", "."]
+             " ", "\t", "# note\n", "\\\n", "sqrt", "x", ".", "\f", "\r\n", "2/V", "resistorR1", "µ"]
 
 
-@settings(max_examples=200, **SETTINGS)
-@given(st.lists(st.sampled_from(FRAGMENTS), max_size=30), st.sampled_from([SEED, ""]))
-def test_fast_loop_matches_lark(frags, prefix):
+def _outcome(text, fast):
+    try:
+        return P._parse(text, "f.pw", fast=fast).statements
+    except Exception as e:  # an InputError (syntax, unit, unknown function): compare the messages
+        return ("error", type(e).__name__, str(e))
+
+
+@settings(max_examples=300, **SETTINGS)
+@given(st.lists(st.sampled_from(FRAGMENTS), max_size=30), st.sampled_from([SEED, SEED2, ""]))
+def test_fast_path_matches_lark(frags, prefix):
     text = prefix + " ".join(frags) if frags and frags[0] not in "\n" else prefix + "".join(frags)
-    fast = lark = None
-    try:
-        with P._LOCK:
-            P._builder(P._parser("start")).file = "f.pw"
-            fast = P._driver("start").run(text)
-    except P._Fallback:
-        fast = "fallback"
-    except Exception as e:  # an InputError from a rule callback (bad unit, unknown function)
-        fast = ("error", type(e).__name__)
-    try:
-        lark = P._run("start", text, "f.pw")
-    except Exception as e:
-        lark = ("error", type(e).__name__)
-    if fast == "fallback":
-        assert isinstance(lark, tuple) and lark[0] == "error"  # the fast loop only gives up on errors
-    elif isinstance(fast, tuple):
-        assert lark == fast
-    else:
-        assert fast == lark
+    assert _outcome(text, True) == _outcome(text, False)
+    # line by line: what the fast path takes at all, lark takes and reads the same
+    fast = P._Fast("f.pw")
+    for raw in text.replace("\r\n", "\n").split("\n"):
+        try:
+            stmt = fast.statement(raw, 1)
+        except P._Decline:
+            continue
+        if stmt is None:
+            continue
+        assert P._run("start", raw + "\n", "f.pw") == [stmt]
 
 
 # --- random circuits of every element kind: a result or a clean diagnostic -------------------
