@@ -121,13 +121,25 @@ class System:
         return f"System(size={self.stamper.size}, reactive={self.reactive})"
 
     # --- the matrices -----------------------------------------------------------------------
+    @staticmethod
+    def _summed(trip) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Rows, columns and values with duplicate stamps summed in stamp order, so that the
+        dense and the sparse form hold bit-identical entries."""
+        acc: dict[tuple[int, int], complex] = {}
+        for r, c, v in trip:
+            key = (r, c)
+            acc[key] = acc[key] + v if key in acc else v
+        rows = np.fromiter((k[0] for k in acc), dtype=np.intp, count=len(acc))
+        cols = np.fromiter((k[1] for k in acc), dtype=np.intp, count=len(acc))
+        return rows, cols, np.fromiter(acc.values(), dtype=complex, count=len(acc))
+
     def _sparse(self, trip) -> "sp.csc_matrix":
         import scipy.sparse as sp
         n = self.stamper.size
         if not trip:
             return sp.csc_matrix((n, n), dtype=complex)
-        r, c, v = zip(*trip)
-        return sp.coo_matrix((np.asarray(v, dtype=complex), (r, c)), shape=(n, n)).tocsc()
+        r, c, v = self._summed(trip)
+        return sp.coo_matrix((v, (r, c)), shape=(n, n)).tocsc()
 
     @property
     def G(self) -> "sp.csc_matrix":
@@ -144,17 +156,16 @@ class System:
         return self._C
 
     def dense(self, which: str) -> np.ndarray:
-        """``G`` or ``C`` (``which`` = "G" or "C") as a dense complex numpy array, summed from
-        the stamp triplets like the sparse form (duplicates add); cached, do not modify."""
+        """``G`` or ``C`` (``which`` = "G" or "C") as a dense complex numpy array with the same
+        entries as the sparse form; cached, do not modify."""
         a = self._dense.get(which)
         if a is None:
             trip = {"G": self.stamper._g, "C": self.stamper._c}[which]
             n = self.stamper.size
             a = np.zeros((n, n), dtype=complex)
             if trip:
-                r, c, v = zip(*trip)
-                np.add.at(a, (np.asarray(r, dtype=np.intp), np.asarray(c, dtype=np.intp)),
-                          np.asarray(v, dtype=complex))
+                r, c, v = self._summed(trip)
+                a[r, c] = v
             self._dense[which] = a
         return a
 
