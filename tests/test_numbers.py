@@ -5,7 +5,7 @@ import pytest
 from scipy import constants
 
 from solver import InputError, loads
-from solver.circuit.devices import thermal_voltage
+from solver.circuit.devices import BOLTZMANN, ELEMENTARY_CHARGE, thermal_voltage
 from solver.language.expr import Value, evaluate
 from solver.language.parse import parse_expression
 from solver.language.units import OHM, AMP, FARAD, HERTZ, A_PER_V2, PER_VOLT, parse_quantity
@@ -65,6 +65,17 @@ def test_thermal_voltage_codata():
     q = constants.physical_constants["elementary charge"][0]
     assert thermal_voltage(300.0) == pytest.approx(k * 300.0 / q, rel=1e-15)
     assert thermal_voltage(300.0) == pytest.approx(0.025852, rel=1e-4)  # 25.85 mV at 300 K, from memory
+
+
+def test_constants_are_scipys_codata_exactly():
+    # the values devices.py writes out (to keep scipy.constants off the start-up path) are
+    # exactly scipy.constants' CODATA k and e; both are exact in the SI since 2019 (BIPM, The
+    # International System of Units, 9th ed., section 2.2)
+    assert BOLTZMANN == constants.k == constants.physical_constants["Boltzmann constant"][0]
+    assert ELEMENTARY_CHARGE == constants.e == constants.physical_constants["elementary charge"][0]
+    assert constants.physical_constants["Boltzmann constant"][2] == 0.0  # listed as exact
+    assert constants.physical_constants["elementary charge"][2] == 0.0
+    assert thermal_voltage(290.0) == constants.k * 290.0 / constants.e  # the same arithmetic
 
 
 def test_let_order_free_and_element_refs():

@@ -35,7 +35,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.sparse as sp
 
 from solver.analysis import scenarios as table
 from solver.circuit.model import Circuit
@@ -208,7 +207,7 @@ class _SparseSweep:
             except LinAlgError:
                 raise RuntimeError("singular") from None
             return x[self.inv]
-        import scipy.sparse.linalg as spla
+        import scipy.sparse as sp, scipy.sparse.linalg as spla
         A = sp.csc_matrix((self.g + s * self.c, self.indices, self.indptr), shape=(self.n, self.n))
         with np.errstate(all="ignore"):
             if self.spec is None:  # keep whichever order fills in less
@@ -236,8 +235,8 @@ def solve_many(sys_: System, s: np.ndarray, dense: bool | None = None,
         dense = n <= DENSE_LIMIT
     b = sys_.b.astype(complex)
     if dense:
-        G = sys_.G.toarray().astype(complex)
-        C = sys_.C.toarray().astype(complex)
+        G = sys_.dense("G").astype(complex)
+        C = sys_.dense("C").astype(complex)
         step = max(1, _BATCH_BYTES // (16 * n * n))
         ri, ci = np.nonzero(C)  # only C's entries move with s: copy G, then add s*C there
         cv = C[ri, ci]

@@ -3,7 +3,7 @@
 Bias form (textbook relations, e.g. A. S. Sedra, K. C. Smith, *Microelectronic
 Circuits*, 7th ed., sections 7.2 and 7.5 (BJT), 7.2.2 (MOSFET), from memory):
 
-    V_T = k*T/q            (k, q: CODATA values via scipy.constants)
+    V_T = k*T/q            (k, q: the exact SI values, equal to scipy.constants' CODATA k, e)
     gm = I_C/V_T,  rpi = beta/gm,  re = alpha/gm,  alpha = beta/(beta+1),  ro = V_A/I_C
     MOSFET: gm = 2*I_D/V_ov,  ro = 1/(lambda*I_D)
     cpi = gm/(2*pi*f_T) - cmu
@@ -31,16 +31,25 @@ class DeviceError(ValueError):
         self.key = key
 
 
+#: Boltzmann constant k in J/K and elementary charge e in C. Both are exact by definition
+#: since the 2019 revision of the SI (BIPM, The International System of Units, 9th ed.,
+#: 2019, section 2.2), so CODATA 2018 and later list these very numbers. They are written
+#: here rather than imported because importing scipy.constants pulls in scipy's array-API
+#: layer (about 0.1 s at every start of the command line); tests/test_numbers.py checks
+#: that they equal scipy.constants.k and scipy.constants.e exactly.
+BOLTZMANN = 1.380649e-23
+ELEMENTARY_CHARGE = 1.602176634e-19
+
+
 def thermal_voltage(temp: float = 300.0) -> float:
-    """V_T = k*T/q in volts (CODATA constants through scipy.constants).
+    """V_T = k*T/q in volts (the exact SI k and e, equal to scipy.constants' CODATA values).
 
     Examples
     --------
     >>> round(thermal_voltage(300.0), 6)
     0.025852
     """
-    from scipy.constants import elementary_charge, k
-    return k * temp / elementary_charge
+    return BOLTZMANN * temp / ELEMENTARY_CHARGE
 
 
 def needs_bias(dev: Device) -> bool:

@@ -2,19 +2,29 @@
 
 :class:`Stamper` is the only place that knows about matrix storage. It numbers
 the non-reference nodes and the branch currents, and lets every element of
-:mod:`solver.circuit.elements` stamp itself. The numeric domain stores COO triplets
-and builds ``scipy.sparse`` matrices; :mod:`solver.analysis.symbolic` subclasses the
-stamper to get sympy entries from the very same stamps.
+:mod:`solver.circuit.elements` stamp itself. The numeric domain stores COO triplets;
+:class:`System` solves a small system densely with numpy and builds ``scipy.sparse``
+matrices only when they are needed (a large system, a diagnosis, a condition estimate,
+a sweep), so the command line does not pay scipy's import time for a ten-node circuit.
+:mod:`solver.analysis.symbolic` subclasses the stamper to get sympy entries from the
+very same stamps.
 """
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
-import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
 from solver.circuit.elements import Element
+
+if TYPE_CHECKING:  # scipy is imported where it is used (start-up time of the command line)
+    import scipy.sparse as sp
+
+#: up to this many unknowns :meth:`System.solve` uses a dense LU (numpy.linalg.solve) and does
+#: not import scipy; above it, a sparse LU (scipy.sparse.linalg.splu). A dense n x n complex
+#: matrix of this size is 16*n*n bytes = 1 MB, and LAPACK's LU of it takes milliseconds.
+SOLVE_DENSE_LIMIT = 250
 
 
 class SingularSystem(Exception):
@@ -93,38 +103,121 @@ class Stamper:
         return names
 
 
-@dataclass
 class System:
-    """A stamped numeric system (G + sC) x = b in CSC form."""
+    """A stamped numeric system (G + sC) x = b.
 
-    G: sp.csc_matrix
-    C: sp.csc_matrix
-    b: np.ndarray
-    stamper: Stamper
+    ``G`` and ``C`` are ``scipy.sparse`` CSC matrices built from the stamp triplets on first
+    access; :meth:`solve` of a small system works on dense numpy arrays and never builds them.
+    """
+
+    def __init__(self, stamper: Stamper, b: np.ndarray):
+        self.stamper = stamper
+        self.b = b
+        self._G = None
+        self._C = None
+        self._dense: dict[str, np.ndarray] = {}
+
+    def __repr__(self) -> str:
+        return f"System(size={self.stamper.size}, reactive={self.reactive})"
+
+    # --- the matrices -----------------------------------------------------------------------
+    @staticmethod
+    def _summed(trip) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Rows, columns and values with duplicate stamps summed in stamp order, so that the
+        dense and the sparse form hold bit-identical entries."""
+        acc: dict[tuple[int, int], complex] = {}
+        for r, c, v in trip:
+            key = (r, c)
+            acc[key] = acc[key] + v if key in acc else v
+        rows = np.fromiter((k[0] for k in acc), dtype=np.intp, count=len(acc))
+        cols = np.fromiter((k[1] for k in acc), dtype=np.intp, count=len(acc))
+        return rows, cols, np.fromiter(acc.values(), dtype=complex, count=len(acc))
+
+    def _sparse(self, trip) -> "sp.csc_matrix":
+        import scipy.sparse as sp
+        n = self.stamper.size
+        if not trip:
+            return sp.csc_matrix((n, n), dtype=complex)
+        r, c, v = self._summed(trip)
+        return sp.coo_matrix((v, (r, c)), shape=(n, n)).tocsc()
+
+    @property
+    def G(self) -> "sp.csc_matrix":
+        """Conductance part, scipy.sparse CSC (built on first access)."""
+        if self._G is None:
+            self._G = self._sparse(self.stamper._g)
+        return self._G
+
+    @property
+    def C(self) -> "sp.csc_matrix":
+        """Capacitance/inductance part, scipy.sparse CSC (built on first access)."""
+        if self._C is None:
+            self._C = self._sparse(self.stamper._c)
+        return self._C
+
+    def dense(self, which: str) -> np.ndarray:
+        """``G`` or ``C`` (``which`` = "G" or "C") as a dense complex numpy array with the same
+        entries as the sparse form; cached, do not modify."""
+        a = self._dense.get(which)
+        if a is None:
+            trip = {"G": self.stamper._g, "C": self.stamper._c}[which]
+            n = self.stamper.size
+            a = np.zeros((n, n), dtype=complex)
+            if trip:
+                r, c, v = self._summed(trip)
+                a[r, c] = v
+            self._dense[which] = a
+        return a
 
     @property
     def reactive(self) -> bool:
+        """True when C has a nonzero entry once duplicate stamps are summed."""
+        if not self.stamper._c:
+            return False
+        if self.stamper.size <= SOLVE_DENSE_LIMIT:
+            return bool(np.any(self.dense("C") != 0))
         return self.C.nnz > 0 and bool(np.any(self.C.data != 0))
 
-    def matrix(self, s: complex) -> sp.csc_matrix:
+    def dense_matrix(self, s: complex) -> np.ndarray:
+        """G + sC as a dense complex array (a new array when s != 0, else the cached G)."""
+        return self.dense("G") + s * self.dense("C") if s != 0 else self.dense("G")
+
+    def matrix(self, s: complex) -> "sp.csc_matrix":
         return (self.G + s * self.C).tocsc() if s != 0 else self.G.astype(complex).tocsc()
 
     def solve(self, s: complex, b: np.ndarray | None = None) -> np.ndarray:
-        """Solve at complex frequency s; raises :class:`SingularSystem`."""
-        if self.stamper.size == 0:
+        """Solve at complex frequency s; raises :class:`SingularSystem`.
+
+        Up to :data:`SOLVE_DENSE_LIMIT` unknowns by a dense LU with partial pivoting
+        (numpy.linalg.solve, LAPACK gesv), above it by a sparse LU (scipy's SuperLU); both
+        then apply the same residual check.
+        """
+        n = self.stamper.size
+        if n == 0:
             return np.zeros(0, complex)
-        A = self.matrix(s)
         rhs = self.b if b is None else b
-        try:
-            with np.errstate(all="ignore"):
-                lu = spla.splu(A.astype(complex))
-                x = lu.solve(rhs.astype(complex))
-        except RuntimeError as exc:  # "Factor is exactly singular"
-            raise SingularSystem(str(exc)) from None
+        if n <= SOLVE_DENSE_LIMIT:
+            A = self.dense_matrix(s)
+            try:
+                with np.errstate(all="ignore"):
+                    x = np.linalg.solve(A, rhs.astype(complex))
+            except np.linalg.LinAlgError as exc:  # "Singular matrix": an exactly zero pivot
+                raise SingularSystem(str(exc)) from None
+            Amax = np.abs(A).max()
+        else:
+            import scipy.sparse.linalg as spla
+            A = self.matrix(s)
+            try:
+                with np.errstate(all="ignore"):
+                    lu = spla.splu(A.astype(complex))
+                    x = lu.solve(rhs.astype(complex))
+            except RuntimeError as exc:  # "Factor is exactly singular"
+                raise SingularSystem(str(exc)) from None
+            Amax = abs(A).max()
         if not np.all(np.isfinite(x)):
             raise SingularSystem("non-finite solution")
         # reject numerically singular systems (residual check against the scale of A)
-        scale = abs(A).max() * max(1.0, np.abs(x).max()) + np.abs(rhs).max()
+        scale = Amax * max(1.0, np.abs(x).max()) + np.abs(rhs).max()
         if np.abs(A @ x - rhs).max() > 1e-8 * scale:
             raise SingularSystem("numerically singular")
         return x
@@ -138,7 +231,7 @@ class System:
 
 
 def assemble(elements: list[Element], ground: set[str]) -> System:
-    """Stamp every element into sparse G, C and b.
+    """Stamp every element; G and C are built from the triplets when first needed.
 
     Examples
     --------
@@ -148,18 +241,10 @@ def assemble(elements: list[Element], ground: set[str]) -> System:
     1.0
     """
     st = Stamper(elements, ground).stamp_all()
-    n = st.size
-
-    def build(trip):
-        if not trip:
-            return sp.csc_matrix((n, n), dtype=complex)
-        r, c, v = zip(*trip)
-        return sp.coo_matrix((np.asarray(v, dtype=complex), (r, c)), shape=(n, n)).tocsc()
-
-    b = np.zeros(n, dtype=complex)
+    b = np.zeros(st.size, dtype=complex)
     for r, v in st._b.items():
         b[r] += v
-    return System(build(st._g), build(st._c), b, st)
+    return System(st, b)
 
 
 # --- diagnosis of a singular or ill-conditioned system ---------------------------------------
@@ -169,6 +254,11 @@ COND_WARN = 1e12
 #: up to this many unknowns the null space of a numerically singular system comes from a dense
 #: SVD; above it, from inverse iteration on one sparse LU factorization
 DENSE_LIMIT = 2000
+#: up to this many unknowns :func:`condition_estimate` gives the exact 1-norm condition number
+EXACT_COND_LIMIT = 300
+#: :func:`condition_estimate` trusts a dense result up to this (two decades below COND_WARN, so
+#: whether to warn is always decided as before); above it, the sparse LU route decides
+DENSE_COND_TRUST = 1e10
 
 
 @dataclass
@@ -192,6 +282,7 @@ class Singularity:
 
 def _equilibrate(A: sp.csc_matrix) -> sp.csc_matrix:
     """Scale rows, then columns, to unit max-norm: MNA mixes siemens, ones and farads*s."""
+    import scipy.sparse as sp
     A = sp.csr_matrix(A)
     r = abs(A).max(axis=1).toarray().ravel()
     r[r == 0] = 1.0
@@ -199,6 +290,16 @@ def _equilibrate(A: sp.csc_matrix) -> sp.csc_matrix:
     c = abs(A).max(axis=0).toarray().ravel()
     c[c == 0] = 1.0
     return sp.csc_matrix(A @ sp.diags(1.0 / c))
+
+
+def _equilibrate_dense(A: np.ndarray) -> np.ndarray:
+    """:func:`_equilibrate` on a dense array: the same products, entry by entry."""
+    r = np.abs(A).max(axis=1)
+    r[r == 0] = 1.0
+    A = A * (1.0 / r)[:, None]
+    c = np.abs(A).max(axis=0)
+    c[c == 0] = 1.0
+    return A * (1.0 / c)[None, :]
 
 
 def diagnose(system: System, s: complex) -> Singularity:
@@ -224,6 +325,7 @@ def diagnose(system: System, s: complex) -> Singularity:
     >>> diagnose(bad, 0).undetermined
     ['v(a)', 'v(b)']
     """
+    import scipy.sparse as sp
     from scipy.sparse.csgraph import maximum_bipartite_matching, structural_rank
     names = system.stamper.unknown_names()
     n = system.stamper.size
@@ -273,6 +375,8 @@ def _sparse_null(A: sp.csc_matrix, names: list[str]) -> Singularity:
     G. H. Golub, C. F. Van Loan, *Matrix Computations*, 4th ed., section 8.2.2 (inverse
     iteration), from memory.
     """
+    import scipy.sparse as sp
+    import scipy.sparse.linalg as spla
     n = A.shape[0]
     A = sp.csc_matrix(A, dtype=complex)
     lu = None
@@ -320,13 +424,27 @@ def condition_estimate(system: System, s: complex) -> float:
     n = system.stamper.size
     if n == 0:
         return 1.0
+    if n <= EXACT_COND_LIMIT:
+        # small and well conditioned: the same exact 1-norm condition number of the same
+        # equilibrated matrix, from dense arrays without importing scipy. A nonsingular matrix
+        # this far from singular cannot give an exactly zero pivot in the sparse LU below
+        # (backward stability of LU with partial pivoting: Golub, Van Loan, Matrix
+        # Computations, 4th ed., section 3.4.6, from memory), so the result is the same; near
+        # singularity the sparse route decides, exactly as before.
+        Ad = _equilibrate_dense(system.dense_matrix(s))
+        if np.all(np.isfinite(Ad)):
+            with np.errstate(all="ignore"):
+                cond = float(np.linalg.cond(Ad, 1))
+            if cond <= DENSE_COND_TRUST:
+                return cond
+    import scipy.sparse.linalg as spla
     A = _equilibrate(system.matrix(s)).astype(complex)
     try:
         with np.errstate(all="ignore"):
             lu = spla.splu(A)
     except RuntimeError:
         return float("inf")
-    if n <= 300:  # small: the exact 1-norm condition number is cheap and repeatable
+    if n <= EXACT_COND_LIMIT:  # small: the exact 1-norm condition number is cheap and repeatable
         return float(np.linalg.cond(A.toarray(), 1)) if np.all(np.isfinite(A.data)) else float("inf")
     inv = spla.LinearOperator((n, n), matvec=lu.solve, rmatvec=lambda x: lu.solve(x, trans="H"),
                               dtype=complex)
