@@ -461,3 +461,23 @@ def test_sweep_report_carries_the_supply_caution(cli, netlist):
     r = cli("sweep", p, "--from", "1Hz", "--to", "10MHz")
     assert r.returncode == 0, r.stderr
     assert "caution" in r.stdout and "300 V" in r.stdout and "not a safety assessment" in r.stdout
+
+
+def test_golden_minimum_against_scipy_bounded_minimiser():
+    # the golden-section search that finds a resonant flat top agrees with scipy's bounded
+    # minimiser (Brent's method, scipy.optimize.minimize_scalar) on a unimodal function:
+    # |H| of a second-order band-pass with Q = 5 around its centre, on log f
+    # (Kiefer 1953; Press et al., Numerical Recipes 3rd ed., 10.2, from memory)
+    import numpy as np
+    from scipy.optimize import minimize_scalar
+    from solver.analysis.frequency import golden_minimum
+    w0, q = 2 * np.pi * 1e4, 5.0
+
+    def neg(logf):
+        s = 2j * np.pi * 10.0 ** logf
+        return -abs((w0 / q) * s / (s * s + (w0 / q) * s + w0 * w0))
+
+    x, fx = golden_minimum(neg, 3.5, 4.6, 1e-10)
+    ref = minimize_scalar(neg, bounds=(3.5, 4.6), method="bounded", options={"xatol": 1e-10})
+    assert x == pytest.approx(ref.x, abs=1e-7) and x == pytest.approx(4.0, abs=1e-7)
+    assert fx == pytest.approx(ref.fun, rel=1e-12) and fx == pytest.approx(-1.0, rel=1e-12)

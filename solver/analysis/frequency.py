@@ -389,18 +389,54 @@ def flat_top(sc: Scenario, freqs: np.ndarray, h: np.ndarray) -> tuple[float, com
         return float(freqs[j]), complex(h[k])
     # an interior flat top is a maximum of |H| (zero slope): refine it between the neighbours
     # (a resonant peak falls between sweep points)
-    from scipy.optimize import minimize_scalar
     lo, hi = math.log10(freqs[k - 1]), math.log10(freqs[k + 1])
 
     def neg(logf):
         v = abs(response(sc, np.array([10.0 ** logf]))[0])
         return -v if np.isfinite(v) else 0.0
 
-    r = minimize_scalar(neg, bounds=(lo, hi), method="bounded", options={"xatol": 1e-10})
-    if -r.fun > abs(h[k]):
-        f = 10.0 ** float(r.x)
+    x, fx = golden_minimum(neg, lo, hi, 1e-10)
+    if -fx > abs(h[k]):
+        f = 10.0 ** x
         return f, complex(response(sc, np.array([f]))[0])
     return float(freqs[k]), complex(h[k])
+
+
+_INV_PHI = (math.sqrt(5.0) - 1.0) / 2.0
+
+
+def golden_minimum(fn, a: float, b: float, tol: float) -> tuple[float, float]:
+    """(x, fn(x)) at a minimum of a unimodal ``fn`` on [a, b], to within ``tol`` in x.
+
+    Golden-section search: each step keeps the bracket that holds the smaller of two inner
+    points, which shrinks it by 0.618 and reuses one of the points. Written out here so that
+    finding the midband (every ``portwise solve`` of a reactive circuit) does not import
+    scipy.optimize, which costs more than the whole rest of a small solve.
+
+    References
+    ----------
+    J. Kiefer, "Sequential minimax search for a maximum", Proc. Amer. Math. Soc. 4(3), 1953;
+    W. H. Press et al., *Numerical Recipes*, 3rd ed., section 10.2 (from memory).
+
+    Examples
+    --------
+    >>> x, fx = golden_minimum(lambda x: (x - 0.3) ** 2, 0.0, 1.0, 1e-10)
+    >>> round(x, 8), fx < 1e-18
+    (0.3, True)
+    """
+    c = b - _INV_PHI * (b - a)
+    d = a + _INV_PHI * (b - a)
+    fc, fd = fn(c), fn(d)
+    while abs(b - a) > tol:
+        if fc < fd:
+            b, d, fd = d, c, fc
+            c = b - _INV_PHI * (b - a)
+            fc = fn(c)
+        else:
+            a, c, fc = c, d, fd
+            d = a + _INV_PHI * (b - a)
+            fd = fn(d)
+    return (c, fc) if fc < fd else (d, fd)
 
 
 def band(sc: Scenario, freqs: np.ndarray, h: np.ndarray) -> Band | None:
