@@ -402,7 +402,7 @@ def solve_bias(c: Circuit, strategy: str = "auto", max_iter: int = MAX_NEWTON) -
     >>> round(r.nodes["a"], 3), r.devices["D1"]["region"]
     (0.63, 'forward')
     """
-    from solver.circuit.topology import check_bias# source loops, current cut sets, undefined gates: named first
+    from solver.circuit.topology import check_bias  # source loops, current cut sets, undefined gates: named first
     linear = dc_elements(c)
     errors = [d for d in check_bias(c, linear) if d.severity == "error"]
     if errors:
@@ -424,14 +424,8 @@ def solve_bias(c: Circuit, strategy: str = "auto", max_iter: int = MAX_NEWTON) -
             return finish(o, "newton")
         tried.append(o)
     if strategy in ("auto", "gmin"):
-        u, last = starts, None
-        for gmin in [10.0 ** -k for k in range(2, 13)] + [0.0]:
-            o = _newton(linear, devs, c.ground, u, MAX_STEP_NEWTON, gmin)
-            total += o.iterations
-            if not o.converged:
-                tried.append(o)
-                break
-            u, last = o.u, (o, gmin)
+        last, n = _gmin_stepping(linear, devs, c.ground, starts, tried)
+        total += n
         if last is not None and last[1] == 0.0:
             return finish(last[0], "gmin stepping")
         if last is not None and last[1] <= GMIN_KEEP:
@@ -443,23 +437,48 @@ def solve_bias(c: Circuit, strategy: str = "auto", max_iter: int = MAX_NEWTON) -
                            "there); treat the voltages of such nodes as undetermined.")
             return r
     if strategy in ("auto", "source"):
-        u, lam, step, ok = [d.start() * 0 for d in devs], 0.0, 0.1, False
-        while step >= 1e-4:
-            nxt = min(1.0, lam + step)
-            o = _newton(dc_elements(c, nxt) + ties, devs, c.ground, u, MAX_STEP_NEWTON)
-            total += o.iterations
-            if o.converged:
-                lam, u = nxt, o.u
-                step = min(step * 2, 0.25)
-                if lam >= 1.0:
-                    ok = True
-                    break
-            else:
-                tried.append(o)
-                step /= 4
-        if ok:
+        o, n = _source_stepping(c, ties, devs, tried)
+        total += n
+        if o is not None:
             return finish(o, "source stepping")
     raise _failure(c, tried, total)
+
+
+def _gmin_stepping(linear, devs, ground, starts, tried) -> tuple[tuple | None, int]:
+    """Newton with a conductance from every node to ground, reduced decade by decade to zero.
+
+    Returns ((last converged outcome, its gmin) or None, iterations); failures go to ``tried``.
+    """
+    u, last, total = starts, None, 0
+    for gmin in [10.0 ** -k for k in range(2, 13)] + [0.0]:
+        o = _newton(linear, devs, ground, u, MAX_STEP_NEWTON, gmin)
+        total += o.iterations
+        if not o.converged:
+            tried.append(o)
+            break
+        u, last = o.u, (o, gmin)
+    return last, total
+
+
+def _source_stepping(c: Circuit, ties, devs, tried) -> tuple[_Outcome | None, int]:
+    """Newton with the supplies ramped from zero: the step cut by 4 on failure, doubled on success.
+
+    Returns (the outcome at full supply or None, iterations); failures go to ``tried``.
+    """
+    u, lam, step, total = [d.start() * 0 for d in devs], 0.0, 0.1, 0
+    while step >= 1e-4:
+        nxt = min(1.0, lam + step)
+        o = _newton(dc_elements(c, nxt) + ties, devs, c.ground, u, MAX_STEP_NEWTON)
+        total += o.iterations
+        if o.converged:
+            lam, u = nxt, o.u
+            step = min(step * 2, 0.25)
+            if lam >= 1.0:
+                return o, total
+        else:
+            tried.append(o)
+            step /= 4
+    return None, total
 
 
 def _failure(c: Circuit, tried: list[_Outcome], total: int) -> BiasError:
