@@ -92,3 +92,217 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
             raise p.fail(explain_singular(p.circuit, f, str(e))) from None
         warnings = p.warnings + conditioning(p.circuit, f)
     return Result(p.circuit, f, pr.quantities, device_table(p.circuit), p.notes + why, p.bias, warnings)
+
+
+# --- the design report and the notebook displays (issue 16) ---------------------------------------
+def _result_html(self) -> str:
+    """The port quantities (and the operating point) as the report shows them, for Jupyter."""
+    from solver.analysis.ports import UNITS as _U
+    from solver.output import html as H
+    from solver.output import htmlreport as R
+    c = self.circuit
+    f = self.frequency_hz
+    body = [f"<h3>{H.escape(c.title or Path(c.file).stem)}</h3>",
+            H.para(f"Port quantities at {'DC' if f == 0 else R.eng(f, 'Hz')}.", "note"),
+            R.port_table(self.quantities, _U)]
+    if self.devices:
+        body.append(R.device_params_table(self.devices))
+    if self.bias is not None:
+        body.append(R.bias_tables(c, self.bias))
+    return H.fragment("".join(body))
+
+
+Result._repr_html_ = _result_html  # defined here, beside the report code it shares
+
+
+@dataclass
+class Sweep:
+    """A frequency response (:func:`sweep`): the summary of ``portwise sweep``, and its Bode plot in Jupyter."""
+
+    summary: object  # solver.analysis.response.Summary
+    warnings: list[Diagnostic] = field(default_factory=list)
+
+    def to_dict(self) -> dict:
+        from solver.output.sweep import summary_json
+        return summary_json(self.summary)
+
+    def to_json(self) -> str:
+        import json
+        from solver.output.htmlreport import json_ready
+        return json.dumps(json_ready(self.to_dict()), allow_nan=False)
+
+    def _repr_html_(self) -> str:
+        from solver.output import html as H
+        from solver.output.htmlreport import summary_html
+        return H.fragment(summary_html(self.summary))
+
+
+def sweep(circuit: Circuit | str | Path, f_from: float = 1.0, f_to: float = 1e8, quantity: str | None = None,
+          points: int | None = None, per_decade: int | None = None) -> Sweep:
+    """The frequency response of ``portwise sweep``: midband, corners, poles and zeros, estimates.
+
+    Examples
+    --------
+    >>> import solver
+    >>> c = solver.loads("signal VS (a, gnd) 1 V, rs=1k\\ncapacitor C1 (a, gnd) 1u\\noutput (a, gnd)\\n")
+    >>> s = sweep(c, 1, 1e5)
+    >>> round(s.to_dict()["summary"]["f_high_hz"], 2)
+    159.15
+    >>> "<svg" in s._repr_html_()
+    True
+    """
+    from solver.analysis.frequency import default_quantity, frequencies
+    from solver.analysis.response import analyse
+    c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    with paused_gc():
+        p = pipeline.prepare(c, "ports", "ac")
+        q = quantity or default_quantity(p.circuit)
+        sm = analyse(p.circuit, q, frequencies(f_from, f_to, points, per_decade))
+    return Sweep(sm, list(p.warnings))
+
+
+@dataclass
+class Expression:
+    """One derived port quantity (:func:`derive`): plain text, LaTeX, and a formula in Jupyter.
+
+    ``_repr_html_`` is MathML built from our own parse of the plain text (the netlist
+    expression language), ``_repr_latex_`` the LaTeX of ``portwise derive --latex``.
+    """
+
+    derived: object  # solver.analysis.symbolic.derive.Derived
+
+    @property
+    def quantity(self) -> str:
+        return self.derived.quantity
+
+    @property
+    def plain(self) -> str:
+        return self.derived.plain
+
+    @property
+    def latex(self) -> str:
+        return self.derived.latex
+
+    def __str__(self) -> str:
+        return f"{self.quantity} = {self.plain}"
+
+    def to_dict(self) -> dict:
+        return {"quantity": self.quantity, "expression": self.plain, "latex": self.latex}
+
+    def to_json(self) -> str:
+        import json
+        return json.dumps(self.to_dict())
+
+    def _repr_latex_(self) -> str:
+        from solver.analysis.symbolic.printing import latex_name
+        return f"$\\displaystyle {latex_name(self.quantity)} = {self.latex}$"
+
+    def _repr_html_(self) -> str:
+        from solver.output import html as H
+        from solver.output.htmlreport import formula_html
+        return H.fragment(formula_html(self.quantity, self.plain, getattr(self.derived, "where", None)))
+
+
+def derive(circuit: Circuit | str | Path, quantities="all", keep=None, numeric=(), limits=()) -> list[Expression]:
+    """Symbolic port quantities as ``portwise derive`` prints them; each shows as a formula in Jupyter.
+
+    Examples
+    --------
+    >>> import solver
+    >>> d = derive(solver.loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nload RL (b, gnd) 2k\\n"), ["Gv"])
+    >>> str(d[0])
+    'Gv = RL/(R1 + RL)'
+    >>> "<math" in d[0]._repr_html_() and d[0]._repr_latex_().startswith("$")
+    True
+    """
+    from solver.analysis import scenarios
+    from solver.analysis.symbolic.derive import derive as _derive
+    c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    p = pipeline.prepare(c, "ports", "ac")
+    qs = scenarios.quantities(p.circuit) if quantities == "all" else list(quantities)
+    return [Expression(d) for d in _derive(p.circuit, qs, keep, numeric, limits)]
+
+
+@dataclass
+class Report:
+    """The design report (:func:`report`): the HTML page, and each section's data as JSON."""
+
+    html: str
+    sections: list
+    left_out: list
+    warnings: list[Diagnostic] = field(default_factory=list)
+
+    def to_dict(self) -> dict:
+        from solver.output.htmlreport import json_ready
+        return json_ready({"sections": {s.ident: s.data for s in self.sections},
+                           "order": [s.ident for s in self.sections],
+                           "left_out": [{"part": p, "reason": r} for p, r in self.left_out]})
+
+    def to_json(self) -> str:
+        import json
+        return json.dumps(self.to_dict(), allow_nan=False)
+
+    def _repr_html_(self) -> str:  # the whole page in a notebook: its style is scoped under .pw
+        from solver.output import html as H
+        body = self.html.split('<body class="pw">', 1)[1].rsplit("</body>", 1)[0]
+        return H.fragment(body)
+
+
+#: optional analyses the report shows when they exist: key -> function(circuit, result) -> result or None.
+#: The noise, sensitivity/spread and loop-gain work register theirs here (see htmlreport.OPTIONAL).
+REPORT_ANALYSES: dict = {}
+
+
+def report_date() -> str:
+    """Now in UTC, or SOURCE_DATE_EPOCH when set (reproducible reports; reproducible-builds.org convention)."""
+    import os
+    from datetime import datetime, timezone
+    epoch = os.environ.get("SOURCE_DATE_EPOCH")
+    t = datetime.fromtimestamp(int(epoch), timezone.utc) if epoch and epoch.isdigit() else datetime.now(timezone.utc)
+    return t.strftime("%Y-%m-%d %H:%M UTC")
+
+
+def report(circuit: Circuit | str | Path, at: float | None = None, f_from: float | None = None,
+           f_to: float | None = None, per_decade: int = 20, quantity: str | None = None,
+           force: bool = False, date: str | None = None) -> Report:
+    """The design report of ``portwise report``: one self-contained HTML page.
+
+    Parameters
+    ----------
+    circuit : Circuit, str or Path
+    at : float, optional
+        The analysis frequency of the port quantities and claims (default as :func:`solve`).
+    f_from, f_to : float, optional
+        The frequency-response range (default: two decades beyond the poles and zeros).
+    per_decade : int
+        Sweep points per decade.
+    quantity : str, optional
+        The swept quantity (default Gv, Zt for a current signal).
+    force : bool
+        As for :func:`solve`.
+    date : str, optional
+        The date printed on the report (default :func:`report_date`).
+
+    Examples
+    --------
+    >>> import solver
+    >>> r = report(solver.loads('title "divider"\\nsignal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\n'
+    ...                         'load RL (b, gnd) 1k\\n'), date="2026-01-01")
+    >>> [s.ident for s in r.sections]
+    ['netlist', 'ports', 'forms']
+    >>> r.html.startswith("<!DOCTYPE html>")
+    True
+    """
+    from solver import __version__
+    from solver.output import htmlreport as R
+    c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    res = solve(c, at, force)
+    opts = R.Options(at, f_from, f_to, per_decade, quantity)
+    ctx = R.Context(res, opts, __version__, date or report_date())
+    for key, fn in REPORT_ANALYSES.items():
+        out = fn(res.circuit, res)
+        if out is not None:
+            ctx.extras[key] = out
+    with paused_gc():
+        built = R.build(ctx)
+    return Report(built.html, built.sections, built.omitted, list(res.warnings))
