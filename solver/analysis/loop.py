@@ -277,9 +277,11 @@ class Gain:
 
     @property
     def model(self) -> np.ndarray:
-        """G_inf T/(1 + T) + G0/(1 + T)."""
+        """G_inf T/(1 + T) + G0/(1 + T); undefined (nan) where T = 0: with no loop around the
+        source (a grounded-emitter stage), G_inf is infinite and the model degenerates."""
         with np.errstate(all="ignore"):
-            return (self.G_inf * self.T + self.G_0) / (1 + self.T)
+            return np.where(self.T == 0, complex(math.nan, math.nan),
+                            (self.G_inf * self.T + self.G_0) / (1 + self.T))
 
 
 @dataclass
@@ -318,7 +320,7 @@ def blackman_value(zd: complex, ts: complex, to: complex) -> complex:
         return complex(math.inf, 0)
     if not (np.isfinite(ts) and np.isfinite(to)):
         return complex(math.nan, math.nan)
-    return zd * (1 + ts) / (1 + to) if 1 + to != 0 else complex(math.inf, 0)
+    return complex(zd * (1 + ts) / (1 + to)) if 1 + to != 0 else complex(math.inf, 0)
 
 
 @dataclass
@@ -399,8 +401,8 @@ def gains(c: Circuit, src: Element, base: list[Element], freqs) -> dict[str, Gai
             continue
         dead = table.configuration(cq, "zeroed", True, base).elements
         T = return_ratio(list(dead), c.ground, src, freqs)
-        out[q] = Gain(q, T, _quantity(cq, gq, binf, freqs), _quantity(cq, gq, b0, freqs),
-                      _quantity(c, q, base, freqs))
+        g_inf = np.where(T == 0, complex(math.inf, 0), _quantity(cq, gq, binf, freqs))
+        out[q] = Gain(q, T, g_inf, _quantity(cq, gq, b0, freqs), _quantity(c, q, base, freqs))
     return out
 
 
@@ -449,7 +451,7 @@ def margins(freqs, T, evaluate) -> Margins:
     >>> T = lambda f: 1000 / (1 + 1j * f / 10) / (1 + 1j * f / 1e4)
     >>> m = margins(f, T(f), lambda x: complex(T(np.array([x]))[0]))
     >>> round(m.phase_margin_deg, 2), m.gain_margin_db is None
-    (17.96, True)
+    (51.9, True)
     """
     from scipy.optimize import brentq
     lf = np.log10(np.asarray(freqs, float))
@@ -508,6 +510,11 @@ def analyse_loop(c: Circuit, name: str, freqs, sweep: bool) -> LoopAnalysis:
             res.notes.append(f"{dev.name} is drawn with the T model: the loop is taken around α·i_e, whose "
                              "dead network (α = 0) keeps re between base and emitter, so T differs from the "
                              "hybrid-pi model's T around gm (both give the same G)")
+    for q, x in g.items():
+        if np.any(x.T == 0):
+            res.notes.append(f"no loop around {a.name} for {q}" + ("" if np.all(x.T == 0) else " at some frequencies")
+                             + ": T = 0, so G_inf is infinite and the asymptotic gain model does not apply "
+                             f"({q} is the source's direct transmission alone)")
     if sweep:
         dead = list(table.configuration(c, "zeroed", True, base).elements)
         res.margins = margins(freqs, res.T, lambda f: complex(return_ratio(dead, c.ground, a.element, [f])[0]))

@@ -179,6 +179,8 @@ def _z(z, unit: str, db: bool = False) -> str:
     u = {"ohm": "Ω"}.get(unit, unit)
     if cmath.isinf(z):
         return "infinite"
+    if z == 0:
+        return f"0 {u}".rstrip()
     if abs(z.imag) <= 1e-9 * abs(z):
         text = eng(z.real, u) if u else f"{z.real:.5g}"
     else:
