@@ -385,3 +385,74 @@ def test_api_result(netlist):
     r = _loop(NONINV.format(A=1e3, R1=1e3, R2=9e3, rs=0), netlist, around="U1")
     assert json.loads(r.to_json()) == r.to_dict()
     assert r.warnings == [] and "return ratio" in r.text()
+
+
+# --- 7. symbolic: derive T, Ginf, G0 --------------------------------------------------------------
+def _sym(name):
+    from solver.engine.symbolic.determinants import symbol
+    return symbol(name)
+
+
+def test_symbolic_noninverting_closed_forms(netlist):
+    # T = A R1/(R1 + R2), G_inf = 1 + R2/R1, G0 = 0 (Sedra & Smith, 7th ed., section 11.1,
+    # from memory), identically in the symbols (sympy.simplify of the difference is 0).
+    import sympy
+    from solver.analysis.symbolic.loop import symbolic_loop_quantities
+    c = solver.load(netlist(NONINV.format(A=1e4, R1=1e3, R2=47e3, rs=600)))
+    r = symbolic_loop_quantities(c, "U1")
+    A, R1, R2 = _sym("U1.gain"), _sym("R1"), _sym("R2")
+    assert sympy.simplify(r["T"].expr() - A * R1 / (R1 + R2)) == 0
+    assert sympy.simplify(r["Ginf"].expr() - (1 + R2 / R1)) == 0
+    assert r["G0"].expr() == 0
+
+
+def test_symbolic_degeneration_by_hand(netlist):
+    # The hand formula of test_emitter_degeneration_return_ratio, now as an identity in the
+    # symbols: T = gm RE rpi/(rpi + Rs + RE) and G_inf = -(RC || RL)/RE.
+    import sympy
+    from solver.analysis.symbolic.loop import symbolic_loop_quantities
+    c = solver.load(netlist("""
+signal VS (b, gnd) 1 V, rs=600
+npn Q1 (c, b, e) gm=40m, beta=120
+resistor RE (e, gnd) 220
+resistor RC (c, gnd) 4k7
+load RL (c, gnd) 10k
+"""))
+    r = symbolic_loop_quantities(c, "Q1")
+    gm, rpi, RE, RS, RC, RL = (_sym(n) for n in ("Q1.gm", "Q1.rpi", "RE", "VS.rs", "RC", "RL"))
+    assert sympy.simplify(r["T"].expr() - gm * RE * rpi / (rpi + RS + RE)) == 0
+    assert sympy.simplify(r["Ginf"].expr() + RC * RL / (RC + RL) / RE) == 0
+
+
+@pytest.mark.parametrize("fname, name", [("mic_preamp.pw", "Q1"), ("pin_tia_front_end.pw", "U1"),
+                                         ("hydrophone_cs.pw", "M2"), ("line_driver.pw", "A2.Q"),
+                                         ("geophone_diffpair.pw", "QA"), ("hydrophone_ce_stage.pw", "Q1")])
+def test_symbolic_equals_numeric(fname, name):
+    # Consistency check: the determinant ratio (symbolic) and the injection (numeric) are two
+    # computations of Bode's return ratio; G0 and G_inf likewise, at a complex frequency.
+    from solver.analysis.symbolic.loop import symbolic_loop_quantities
+    from solver.analysis.symbolic.ports import symbol_values
+    c = prepare(solver.load(CIRCUITS / fname)).circuit
+    f = 2e5
+    a = L.analyse_loop(c, name, [f], sweep=False)
+    g = a.gains[sc.main_gain(c)]
+    r = symbolic_loop_quantities(c, name)
+    vals = symbol_values(c)
+    s = 2j * math.pi * f
+    assert _close(r["T"].value(vals, s), g.T[0], 1e-9)
+    assert _close(r["G0"].value(vals, s), g.G_0[0], 1e-9) or abs(g.G_0[0]) < 1e-12
+    assert _close(r["Ginf"].value(vals, s), g.G_inf[0], 1e-9)
+
+
+def test_derive_cli_loop_quantities(cli):
+    r = cli("derive", CIRCUITS / "strain_bridge_amp.pw", "T", "--around", "U1")
+    assert r.returncode == 0, r.stderr
+    assert r.stdout.strip() == "T = R1*U1.gain/(R1 + R2)"
+    r = cli("derive", CIRCUITS / "strain_bridge_amp.pw", "Ginf", "--around", "U1", "--json")
+    assert json.loads(r.stdout)["expression"] == "(R1 + R2)/R1"
+    r = cli("derive", CIRCUITS / "strain_bridge_amp.pw", "T")
+    assert r.returncode == 2 and "--around" in r.stderr
+    r = cli("derive", CIRCUITS / "photodiode_tia.pw", "T", "--around", "U1")
+    assert r.returncode == 2 and "ideal" in r.stderr
+    r = cli("derive", CIRCUITS / "hydrophone_preamp.pw", "Ginf", "--around", "Q1")
+    assert r.returncode == 2 and "T = 0" in r.stderr
