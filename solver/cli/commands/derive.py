@@ -81,6 +81,8 @@ def run(args) -> int:
         if not args.around:
             raise error(None, f"{args.quantity} needs --around NAME (the controlled source of the loop)")
         qs = [args.quantity]
+    elif args.around:
+        raise error(None, f"--around goes with {', '.join(LOOP_CHOICES)}, not {args.quantity}")
     elif args.quantity == "all":
         qs = scenarios.quantities(c)
     else:
