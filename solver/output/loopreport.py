@@ -254,7 +254,8 @@ def loop_plot(a: LoopAnalysis, fmt: str = "png", title: str = "") -> bytes:
                       xytext=(4, -12), textcoords="offset points", color=ACCENT, fontsize=9)
     if m is not None and m.gain_margin_db is not None:
         f180 = m.phase_crossover_hz
-        ax_m.axvline(f180, color=ACCENT, linestyle=":", linewidth=1.0)
+        for ax in (ax_m, ax_p):
+            ax.axvline(f180, color=ACCENT, linestyle=":", linewidth=1.0)
         ax_m.annotate(f"GM = {m.gain_margin_db:.1f} dB", xy=(f180, 0.0), xycoords=("data", "axes fraction"),
                       xytext=(4, 6), textcoords="offset points", color=ACCENT, fontsize=9)
     if title:

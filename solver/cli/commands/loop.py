@@ -32,7 +32,7 @@ def add_arguments(p) -> None:
     g.add_argument("--break", dest="break_node", metavar="NODE", help="double-injection loop gain at NODE")
     p.add_argument("--toward", action="append", metavar="NAMES",
                    help="with --break: the elements (comma-separated) on the side the loop signal leaves "
-                        "NODE toward (needed unless NODE joins one driver and one other element)")
+                        "NODE toward (default: all but the one element whose output drives NODE)")
     p.add_argument("--at", metavar="FREQ", help="one frequency (default: as solve, the detected midband)")
     p.add_argument("--from", dest="f_from", metavar="FREQ", help="sweep from this frequency")
     p.add_argument("--to", dest="f_to", metavar="FREQ", help="sweep to this frequency")
