@@ -135,6 +135,11 @@ class LoopResult:
         out = ["", f"loop gain over {eng(a.freqs[0], 'Hz')} to {eng(a.freqs[-1], 'Hz')}, {len(a.freqs)} points"]
         k = int(np.nanargmax(np.abs(np.where(np.isfinite(a.T), a.T, np.nan)))) if np.isfinite(a.T).any() else 0
         out.append(f"  largest |T|          {_z(a.T[k], '', db=True)} at {eng(a.freqs[k], 'Hz')}")
+        if a.around is not None:
+            g = a.gains[a.quantity]
+            u = UNITS[a.quantity]
+            out.append(f"  at {eng(a.freqs[0], 'Hz')}: T {_z(a.T[0], '', db=True)}, G_inf {_z(g.G_inf[0], u)}, "
+                       f"{a.quantity} {_z(g.G[0], u)}")
         m = a.margins
         if m.crossover_hz is None:
             big = np.isfinite(a.T) & (np.abs(a.T) > 1)
