@@ -94,6 +94,62 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
     return Result(p.circuit, f, pr.quantities, device_table(p.circuit), p.notes + why, p.bias, warnings)
 
 
+# --- feedback: portwise loop (issue 15) ------------------------------------------------------------
+def loop(circuit: Circuit | str | Path, around: str | None = None, at: float | None = None,
+         f_from: float | None = None, f_to: float | None = None, points: int | None = None,
+         break_node: str | None = None, toward: list[str] | None = None, force: bool = False):
+    """The feedback loop around a controlled source (``around``) or at a node (``break_node``).
+
+    One frequency (``at``, default as :func:`solve`), or a log sweep ``f_from`` .. ``f_to``
+    (``points``, default 20 per decade) with the crossover, phase and gain margins.
+    Returns a :class:`solver.output.loopreport.LoopResult` (``.to_dict()``, ``.to_json()``,
+    ``.text()``, ``.warnings``). See :mod:`solver.analysis.loop`.
+
+    Examples
+    --------
+    >>> import solver
+    >>> c = solver.loads('''
+    ... signal VS (p, gnd) 1 V
+    ... opamp U1 (out, p, fb) gain=1000
+    ... resistor R1 (fb, gnd) 1k
+    ... resistor R2 (out, fb) 9k
+    ... output (out, gnd)
+    ... ''')
+    >>> r = solver.loop(c, around="U1")
+    >>> round(r.to_dict()["T"]["re"], 6), round(r.to_dict()["G_inf"]["re"], 6)
+    (100.0, 10.0)
+    """
+    import numpy as np
+
+    from solver.analysis import loop as L
+    from solver.analysis.frequency import frequencies
+    from solver.diagnostics import error
+    from solver.output.loopreport import LoopResult, warnings_for
+    if (around is None) == (break_node is None):
+        raise error(None, "give one of --around NAME or --break NODE")
+    c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    sweep = f_from is not None or f_to is not None
+    with paused_gc():
+        p = pipeline.prepare(c, "ports", "dc" if not sweep and at is not None and float(at) == 0 else "ac", force)
+        notes = list(p.notes)
+        if sweep:
+            if f_from is None or f_to is None or not (0 < f_from < f_to):
+                raise error(None, "a sweep needs 0 < --from < --to")
+            freqs = frequencies(f_from, f_to, points)
+        else:
+            f, why = analysis_frequency(p.circuit, at)
+            notes += why
+            freqs = np.array([f])
+        try:
+            if around is not None:
+                a = L.analyse_loop(p.circuit, around, freqs, sweep)
+            else:
+                a = L.analyse_break(p.circuit, break_node, toward, freqs, sweep)
+        except L.LoopError as e:
+            raise p.fail([Diagnostic("error", None, str(e))]) from None
+    return LoopResult(p.circuit, a, sweep, notes, p.warnings + warnings_for(a))
+
+
 # --- the design report and the notebook displays (issue 16) ---------------------------------------
 def _result_html(self) -> str:
     """The port quantities (and the operating point) as the report shows them, for Jupyter."""
@@ -248,9 +304,37 @@ class Report:
         return H.fragment(body)
 
 
-#: optional analyses the report shows when they exist: key -> function(circuit, result) -> result or None.
-#: The noise, sensitivity/spread and loop-gain work register theirs here (see htmlreport.OPTIONAL).
-REPORT_ANALYSES: dict = {}
+def _report_loops(c: Circuit, res: Result, opts) -> list:
+    """The loops the report shows: around every op-amp with a finite gain, and ``opts.loop_around``.
+
+    Over the report's sweep range when the circuit is reactive, else at the analysis frequency.
+    """
+    from solver.analysis.frequency import frequencies
+    from solver.analysis.loop import CONTROLLED, LoopError
+    from solver.circuit.views import is_reactive, small_signal_elements
+    names = [e.name for e in small_signal_elements(res.circuit)
+             if isinstance(e, CONTROLLED) and e.symbol and e.symbol.endswith(".gain")]
+    names += [n for n in opts.loop_around if n not in names]
+    out = []
+    for n in names:
+        try:
+            if is_reactive(res.circuit) and opts.f_from is not None:
+                pts = len(frequencies(opts.f_from, opts.f_to, per_decade=opts.per_decade))
+                out.append(loop(c, around=n, f_from=opts.f_from, f_to=opts.f_to, points=pts, force=opts.force))
+            else:
+                out.append(loop(c, around=n, at=res.frequency_hz, force=opts.force))
+        except InputError:
+            if n in opts.loop_around:  # asked for by name: the user hears why not
+                raise
+        except LoopError:
+            if n in opts.loop_around:
+                raise
+    return out
+
+
+#: optional analyses the report shows: key -> function(circuit, solve result, options) -> result(s) or None.
+#: Their sections are builders in solver.output.htmlreport (noise, sensitivity, spread, loop).
+REPORT_ANALYSES: dict = {"loop": _report_loops}
 
 
 def report_date() -> str:
@@ -264,7 +348,7 @@ def report_date() -> str:
 
 def report(circuit: Circuit | str | Path, at: float | None = None, f_from: float | None = None,
            f_to: float | None = None, per_decade: int = 20, quantity: str | None = None,
-           force: bool = False, date: str | None = None) -> Report:
+           force: bool = False, date: str | None = None, loop_around: tuple = ()) -> Report:
     """The design report of ``portwise report``: one self-contained HTML page.
 
     Parameters
@@ -282,6 +366,8 @@ def report(circuit: Circuit | str | Path, at: float | None = None, f_from: float
         As for :func:`solve`.
     date : str, optional
         The date printed on the report (default :func:`report_date`).
+    loop_around : names
+        Transistors or controlled sources to show a loop around, besides every op-amp with a gain.
 
     Examples
     --------
@@ -296,13 +382,21 @@ def report(circuit: Circuit | str | Path, at: float | None = None, f_from: float
     from solver import __version__
     from solver.output import htmlreport as R
     c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    from solver.analysis.frequency import default_quantity
+    from solver.circuit.views import is_reactive
     res = solve(c, at, force)
-    opts = R.Options(at, f_from, f_to, per_decade, quantity)
+    opts = R.Options(at, f_from, f_to, per_decade, quantity, force, tuple(loop_around))
+    if is_reactive(res.circuit):  # one range for every swept section (frequency response, loop gain)
+        q = quantity or default_quantity(res.circuit)
+        opts.f_from, opts.f_to = R.sweep_range(res.circuit, q, opts, res.frequency_hz)
     ctx = R.Context(res, opts, __version__, date or report_date())
     for key, fn in REPORT_ANALYSES.items():
-        out = fn(res.circuit, res)
-        if out is not None:
+        out = fn(c, res, opts)
+        if out:
             ctx.extras[key] = out
     with paused_gc():
         built = R.build(ctx)
-    return Report(built.html, built.sections, built.omitted, list(res.warnings))
+    warnings = list(res.warnings)
+    for r in ctx.extras.get("loop", ()):
+        warnings += [w for w in r.warnings if w not in warnings]
+    return Report(built.html, built.sections, built.omitted, warnings)

@@ -475,3 +475,36 @@ def test_notebook_reprs(reactive):
     assert d._repr_latex_().startswith("$\\displaystyle G_{vo} =")
     ET.fromstring(re.search(r"<math.*?</math>", d._repr_html_(), re.S).group(0))
     assert "<section" in rep._repr_html_()
+
+
+# --- optional analyses: the loop gain around an op-amp --------------------------------------------
+def test_loop_section_equals_loop_json(tmp_path):
+    text = (CIRCUITS / "pin_tia_front_end.pw").read_text()
+    path = tmp_path / "tia.pw"  # the bundled TIA, its claim left out (claims are tested above)
+    path.write_text("".join(line for line in text.splitlines(True) if not line.startswith("claim")))
+    rep = api.report(path, date="d")
+    page = Page(rep.html)
+    assert [s.ident for s in rep.sections][-2:] == ["frequency", "loop"]
+    data = rep.to_dict()["sections"]["loop"]["loops"][0]
+    r = rep.to_dict()["sections"]["frequency"]["range"]
+    n = len(data["frequency_hz"])
+    lj = cli_json("loop", path, "--around", "U1", "--from", repr(r["from_hz"]), "--to", repr(r["to_hz"]),
+                  "--points", n)
+    assert data["margins"] == lj["margins"] and data["T"] == lj["T"] and data["poles"] == lj["poles"]
+    vals = values(page.sections["loop"])
+    m = lj["margins"]
+    assert contains(vals, m["crossover_hz"]) and contains(vals, m["phase_margin_deg"])
+    for p in lj["poles"]:
+        assert contains(vals, p["re"]) and contains(vals, p["zeta"])
+    # the poor phase margin is a warning in the section and on the command line
+    assert "phase margin" in "".join(page.sections["loop"]["text"])
+    assert any("phase margin" in w.message for w in rep.warnings)
+
+
+def test_every_optional_section_is_a_builder():
+    from solver.output import htmlreport as R
+    names = [b.__name__ for b in R.SECTIONS]
+    assert names.index("frequency_section") < names.index("noise_section") < names.index("loop_section")
+    ctx = R.Context(api.solve(api.loads("signal VS (a, gnd) 1 V\nresistor R1 (a, b) 1k\nload RL (b, gnd) 1k\n")),
+                    R.Options(), "v", "d")
+    assert all(R.OPTIONAL[k] and getattr(R, f"{k}_section")(ctx) is None for k in R.OPTIONAL)

@@ -61,6 +61,8 @@ class Options:
     f_to: float | None = None
     per_decade: int = 20
     quantity: str | None = None
+    force: bool = False
+    loop_around: tuple = ()
 
 
 @dataclass
@@ -251,7 +253,7 @@ def _formula(text: str, lhs: str, relation: str = "=") -> str:
     from solver.language.mathml import math as mathml
     from solver.language.parse import parse_expression
     try:
-        return mathml(parse_expression(text), lhs, relation, display=True)
+        return mathml(parse_expression(text), lhs, relation)
     except Exception:  # a form our language cannot read back: show the text itself
         return f"<code>{escape(lhs)} {escape(relation)} {escape(text)}</code>"
 
@@ -526,8 +528,58 @@ def spread_section(ctx: Context) -> Section | None:
     return _optional(ctx, "spread", _generic)
 
 
+def loop_html(res) -> str:
+    """One loop (a :class:`solver.output.loopreport.LoopResult`): margins, |T| and arg T, poles, the
+    asymptotic gain model at the lowest frequency (report and notebook)."""
+    from solver.analysis.scenarios import UNITS
+    from solver.output.svg import bode_svg
+    a = res.analysis
+    head = (f"Loop around {a.around.name}: {a.around.what}." if a.around is not None else
+            f"Loop at node {a.injection.node} by double injection.")
+    out = [para(head)]
+    out += [f'<div class="warn">{escape(w.message)}</div>' for w in res.warnings]
+    out += [para(n, "note") for n in list(res.notes) + list(a.notes)]
+    if res.sweep:
+        out.append(bode_svg(a.freqs, a.T, "T", None, None, f"return ratio T around {head}"))
+    m = a.margins
+    t = Table(["", "value"])
+    if res.sweep and m is not None:
+        t.add("crossover (|T| = 1)", Num(m.crossover_hz, "Hz") if m.crossover_hz is not None else "none in the range")
+        t.add("phase margin", Num(m.phase_margin_deg, "", text=f"{m.phase_margin_deg:.1f}°")
+              if m.phase_margin_deg is not None else "none in the range")
+        t.add("gain margin", Num(m.gain_margin_db, "", text=f"{m.gain_margin_db:.2f} dB")
+              if m.gain_margin_db is not None else "none in the range")
+        if m.phase_crossover_hz is not None:
+            t.add("phase crossover", Num(m.phase_crossover_hz, "Hz"))
+    f0 = float(a.freqs[0])
+    at = "DC" if f0 == 0 else eng(f0, "Hz")
+    t.add(f"T at {at}", _znum(complex(a.T[0])))
+    if a.around is not None:
+        g = a.gains[a.quantity]
+        u = _unit(UNITS[a.quantity])
+        for label, arr in (("G_inf", g.G_inf), ("G_0", g.G_0), (a.quantity, g.G),
+                           (a.quantity + " by the model", g.model)):
+            z = complex(arr[0])
+            t.add(f"{label} at {at}", _znum(z) if u in ("V/V", "A/A") else
+                  (Num(z.real, u) if abs(z.imag) <= 1e-9 * abs(z) else _znum(z)))
+    out.append(t.html())
+    if a.poles:
+        t = Table(["re (rad/s)", "im (rad/s)", "natural frequency", "damping ζ", ""])
+        for p in a.poles:
+            t.add(Num(p.s.real, "", 5, text=f"{p.s.real:.5g}"), Num(p.s.imag, "", 5, text=f"{p.s.imag:.5g}"),
+                  Num(p.hz, "Hz"), Num(p.zeta, "", 3, text=f"{p.zeta:.3g}"),
+                  "right half-plane: unstable" if p.s.real > 0 else "")
+        out.append("<h3>Closed-loop poles</h3>" + t.html())
+    return "".join(out)
+
+
 def loop_section(ctx: Context) -> Section | None:
-    return _optional(ctx, "loop", _generic)
+    loops = ctx.extras.get("loop")
+    if not loops:
+        return None
+    body = "".join(f'<div class="loop" data-around="{escape(r.analysis.around.name if r.analysis.around else "")}">'
+                   f"{loop_html(r)}</div>" for r in loops)
+    return Section("loop", "Loop gain", body, {"loops": [r.to_dict() for r in loops]})
 
 
 SECTIONS = (netlist_section, bias_section, ports_section, forms_section, claims_section, frequency_section,

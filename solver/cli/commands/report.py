@@ -10,7 +10,8 @@ numbers (claims, spreads and specs highlighted), portwise's version, the date an
 the cautions; the DC operating point (when bias-solved); the port quantities at
 the analysis frequency; symbolic forms of each quantity (small circuits) and the
 claims with their verdicts; the frequency response (Bode plot, midband, corners,
-poles and zeros, hand estimates beside the exact corners). A section that does
+poles and zeros, hand estimates beside the exact corners); the loop gain around
+every op-amp with a gain (margins, closed-loop poles). A section that does
 not apply is left out; a part left out because the circuit is too large for it
 is listed at the top of the report."""
 EPILOG = """\
@@ -38,6 +39,9 @@ def add_arguments(p) -> None:
     p.add_argument("--per-decade", type=int, default=20, metavar="N", help="sweep points per decade (default 20)")
     p.add_argument("--quantity", choices=QUANTITY_CHOICES, metavar="Q",
                    help="the swept quantity (default Gv; Zt for a current signal)")
+    p.add_argument("--loop-around", action="append", default=[], metavar="NAME",
+                   help="also show the loop gain around this transistor or controlled source (repeatable; "
+                   "every op-amp with a gain= is shown anyway)")
     p.add_argument("--force", action="store_true", help="analyse a transistor outside its amplifying region "
                    "(the report warns)")
     p.add_argument("--json", action="store_true", help="also print each section's data as one JSON object")
@@ -63,7 +67,8 @@ def run(args) -> int:
         raise error(None, "--to must be above --from")
     if not (1 <= args.per_decade <= 1000):
         raise error(None, "--per-decade: between 1 and 1000")
-    rep = api.report(api.load(args.file), at, f_from, f_to, args.per_decade, args.quantity, args.force)
+    rep = api.report(api.load(args.file), at, f_from, f_to, args.per_decade, args.quantity, args.force,
+                     loop_around=tuple(args.loop_around))
     print_warnings(rep.warnings)
     write_file(out, rep.html, args.overwrite)
     if args.json:
