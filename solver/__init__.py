@@ -10,6 +10,7 @@ The layers, in data-flow order: :mod:`solver.language.parse` (grammar -> stateme
 __version__ = "0.1.0"
 __all__ = ["load", "loads", "solve", "Result", "InputError"]
 __all__ += ["loop"]  # feedback: return ratio, asymptotic gain, Blackman, margins
+__all__ += ["sweep", "derive", "report"]  # frequency response, symbolic forms, the HTML design report
 
 
 def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
@@ -22,4 +23,7 @@ def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scip
     if name == "loop":
         from solver import api
         return api.loop
+    if name in ("sweep", "derive", "report"):
+        from solver import api
+        return getattr(api, name)
     raise AttributeError(name)

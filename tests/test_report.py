@@ -411,6 +411,15 @@ def test_mathml_reads_back_to_the_same_value(text):
     assert mathml_value(root, env) == pytest.approx(expected, rel=1e-12)
 
 
+def test_forms_equal_derive_json(claimed):
+    path, rep, page = claimed
+    dj = cli_json("derive", path, "all")
+    exprs = {d["quantity"]: d["expression"] for d in dj["quantities"]}
+    forms = rep.to_dict()["sections"]["forms"]["quantities"]
+    assert forms and all(exprs[q] == text for q, text in forms.items())
+    assert page.sections["forms"]["formulas"] == list(forms)
+
+
 def test_forms_and_claims_are_mathml(claimed):
     _, rep, page = claimed
     assert page.sections["forms"]["formulas"]                    # small enough: forms are shown

@@ -268,9 +268,44 @@ def formula_html(quantity: str, text: str, where=None) -> str:
     return "".join(out) + "</div>"
 
 
+class _OutOfTime(BaseException):  # not an Exception: nothing on the way may swallow it
+    pass
+
+
+def _alarm(signum, frame):
+    raise _OutOfTime()
+
+
+def within(seconds: float, fn, *args):
+    """``(True, fn(*args))``, or ``(False, None)`` when it took longer than ``seconds``.
+
+    A timer interrupt (as ``portwise solve --symbolic`` uses); where there is none (not the
+    main thread, or no ``setitimer``) ``fn`` runs to the end.
+    """
+    import signal
+    import threading
+    if seconds <= 0:
+        return False, None
+    if not (hasattr(signal, "setitimer") and threading.current_thread() is threading.main_thread()):
+        return True, fn(*args)
+    old = signal.signal(signal.SIGALRM, _alarm)
+    try:
+        try:
+            signal.setitimer(signal.ITIMER_REAL, seconds)
+            return True, fn(*args)
+        finally:
+            signal.setitimer(signal.ITIMER_REAL, 0)
+    except _OutOfTime:  # also when the one-shot timer fires during the clean-up above
+        return False, None
+    finally:
+        signal.signal(signal.SIGALRM, old)
+
+
 def forms_section(ctx: Context) -> Section | None:
+    import time
+
     from solver.analysis import scenarios
-    from solver.analysis.symbolic import quick
+    from solver.analysis.symbolic.derive import derive
     from solver.analysis.symbolic.ports import circuit_symbols, scenario_elements
     from solver.engine.mna import Stamper
     c = ctx.circuit
@@ -282,18 +317,32 @@ def forms_section(ctx: Context) -> Section | None:
                      f"{max_unknowns} unknowns and {max_symbols} symbols "
                      "(portwise derive with --keep works at any size)")
         return None
-    forms = quick.quick_symbolic(c, FORM_SECONDS, FORM_LIMITS)
     body = [para("Each port quantity in the circuit's own symbols (s is the complex frequency); "
                  "∥ is the parallel combination x∥y = xy/(x+y).", "note")]
-    missing = [q for q in scenarios.quantities(c) if q not in forms]
-    for q, text in forms.items():
-        body.append(formula_html(q, text))
-    if missing:
-        body.append(para(f"Not shown ({', '.join(missing)}): longer than {max_chars} characters or slower "
-                         f"than {FORM_SECONDS:g} s to derive; portwise derive gives them.", "note"))
-    if not forms:
-        return Section("forms", "Symbolic forms", "".join(body), {"quantities": {}, "not_shown": missing})
-    return Section("forms", "Symbolic forms", "".join(body), {"quantities": dict(forms), "not_shown": missing})
+    forms, long, slow = {}, [], []
+    end = time.monotonic() + FORM_SECONDS  # one budget for all quantities; each finished one is kept
+    for q in scenarios.quantities(c):
+        try:
+            done, got = within(end - time.monotonic(), derive, c, [q])
+        except Exception:  # the numeric sections stand on their own; a form is an extra
+            done, got = True, None
+        if not done:
+            slow.append(q)
+            continue
+        if not got or len(got[0].plain) > max_chars:
+            long.append(q)
+            continue
+        d = got[0]
+        forms[q] = d.plain
+        body.append(formula_html(q, d.plain, getattr(d, "where", None)))
+    if long:
+        body.append(para(f"Not shown ({', '.join(long)}): longer than {max_chars} characters; "
+                         "portwise derive gives them.", "note"))
+    if slow:
+        body.append(para(f"Not shown ({', '.join(slow)}): not derived within the report's {FORM_SECONDS:g} s; "
+                         "portwise derive gives them.", "note"))
+    return Section("forms", "Symbolic forms", "".join(body),
+                   {"quantities": forms, "not_shown": long + slow})
 
 
 def claims_section(ctx: Context) -> Section | None:
@@ -308,7 +357,6 @@ def claims_section(ctx: Context) -> Section | None:
                      "(portwise check works at any size)")
         return None
     from solver.analysis.symbolic.claims import check_claims
-    from solver.analysis.symbolic.quick import within
     from solver.language.mathml import math as mathml
     from solver.output.claims import verdict_json
     f = ctx.result.frequency_hz
