@@ -332,9 +332,42 @@ def _report_loops(c: Circuit, res: Result, opts) -> list:
     return out
 
 
+def _optional_api(name: str, c: Circuit, *args, **kw):
+    """``name(c, ...)`` of this module when that analysis exists here (the noise, sensitivity and
+    spread work add theirs), else None; a circuit the analysis refuses is left out, not an error."""
+    fn = globals().get(name)
+    if fn is None:
+        return None
+    try:
+        return fn(c, *args, **kw)
+    except InputError:
+        return None
+
+
+def _report_noise(c: Circuit, res: Result, opts):
+    """Noise over the default band of ``portwise noise`` (the same JSON as that command)."""
+    return _optional_api("noise", c, force=opts.force)
+
+
+def _report_sensitivity(c: Circuit, res: Result, opts):
+    """Normalised sensitivities at the analysis frequency (``portwise sensitivity --at F``)."""
+    return _optional_api("sensitivity", c, at=res.frequency_hz, force=opts.force)
+
+
+def _report_spread(c: Circuit, res: Result, opts):
+    """Monte Carlo over the netlist's spread lines, when it has some (a fixed seed: reproducible)."""
+    if not getattr(res.circuit, "spreads", None):
+        return None
+    return _optional_api("spread", c, seed=REPORT_SPREAD_SEED, at=res.frequency_hz, force=opts.force)
+
+
+REPORT_SPREAD_SEED = 1
+
 #: optional analyses the report shows: key -> function(circuit, solve result, options) -> result(s) or None.
-#: Their sections are builders in solver.output.htmlreport (noise, sensitivity, spread, loop).
-REPORT_ANALYSES: dict = {"loop": _report_loops}
+#: Their sections are builders in solver.output.htmlreport (noise, sensitivity, spread, loop); an
+#: analysis whose API function is not in this module yet is simply absent from the report.
+REPORT_ANALYSES: dict = {"noise": _report_noise, "sensitivity": _report_sensitivity, "spread": _report_spread,
+                         "loop": _report_loops}
 
 
 def report_date() -> str:

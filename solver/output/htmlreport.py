@@ -556,7 +556,7 @@ def _optional(ctx: Context, key: str, render) -> Section | None:
 
 
 def _generic(res, data: dict) -> str:
-    """Until an analysis has a renderer of its own: its scalar results as a table."""
+    """An analysis without a renderer of its own: its scalar results as a table."""
     t = Table(["result", "value"])
     for k, v in data.items():
         if isinstance(v, (int, float)) and not isinstance(v, bool):
@@ -564,16 +564,107 @@ def _generic(res, data: dict) -> str:
     return t.html()
 
 
+def _cell(v, unit: str = ""):
+    if isinstance(v, bool) or v is None:
+        return "" if v is None else ("yes" if v else "no")
+    if isinstance(v, (int, float)):
+        return Num(float(v), unit)
+    if isinstance(v, dict) and "re" in v:
+        return _znum(complex(float(v["re"]), float(v["im"])))
+    return str(v)
+
+
+def noise_html(res, data: dict) -> str:
+    """Input-referred density plot, noise figure and band totals, the top ten contributions
+    (from the JSON of ``portwise noise``)."""
+    from solver.output.svg import line_svg
+    f = data["frequency_hz"]
+    u = data.get("units", {})
+    unit_in = u.get("input_density", "V/√Hz") if isinstance(u, dict) else "V/√Hz"
+    out = [para(f"Input-referred noise density, {eng(f[0], 'Hz')} to {eng(f[-1], 'Hz')}, {len(f)} points; "
+                f"temperature {data.get('temperature_k', '')} K.")]
+    num = [x if isinstance(x, (int, float)) else float("nan") for x in data["input_density"]]
+    if len(f) > 1:
+        out.append(line_svg(f, [("input density", num)], f"input density ({unit_in})", logy=True,
+                            label="input-referred noise density"))
+    t = Table(["", "value"])
+    tot = data.get("total", {})
+    band = tot.get("band_hz")
+    if band:
+        t.add("band", f"{eng(band[0], 'Hz')} to {eng(band[-1], 'Hz')}")
+    for key, label, unit in (("output_rms", "output noise (rms)", "V"), ("input_rms", "input noise (rms)", ""),
+                             ("nf_db", "noise figure over the band (dB)", ""), ("snr_db", "signal-to-noise (dB)", "")):
+        if tot.get(key) is not None:
+            t.add(label, _cell(tot[key], unit))
+    opt = data.get("optimum", {})
+    if opt:
+        t.add("optimum source resistance", _cell(opt.get("rs_ohm"), "Ω"))
+        t.add("minimum noise figure (dB)", _cell(opt.get("nf_min_db")))
+    out.append(t.html())
+    rows = sorted(data.get("contributions", []), key=lambda r: -(r["share"] if isinstance(r["share"], float) else 0))
+    if rows:
+        t = Table(["element", "kind", "where", "share", "output"])
+        for r in rows[:10]:
+            t.add(r["element"], r.get("kind", ""), r.get("where", ""),
+                  Num(r["share"], "", text=f"{100 * r['share']:.1f} %") if isinstance(r["share"], float) else "",
+                  _cell(r.get("output"), "V"))
+        out.append("<h3>Contributions (top ten)</h3>" + t.html())
+    return "".join(out)
+
+
+def sensitivity_html(res, data: dict) -> str:
+    """The ten largest normalised sensitivities (x/Q)·dQ/dx of each quantity (``portwise sensitivity``)."""
+    f = data.get("frequency_hz")
+    out = [para("Normalised sensitivities (x/Q)·∂Q/∂x, the ten largest of each quantity"
+                + (f" at {'DC' if not f else eng(f, 'Hz')}." if f is not None else "."))]
+    for q, rows in data.get("quantities", {}).items():
+        t = Table(["parameter", "value", "sensitivity", "via"])
+        for r in rows[:10]:
+            t.add(r["parameter"], _cell(r.get("value")), _cell(r.get("normalized")), r.get("via", ""))
+        out.append(f"<h3>{escape(q)}</h3>" + t.html())
+    return "".join(out)
+
+
+def spread_html(res, data: dict) -> str:
+    """Statistics, a histogram of each quantity and the yield of each spec (``portwise spread``)."""
+    from solver.output.svg import histogram_svg
+    out = [para(f"Monte Carlo: {data.get('samples')} samples, seed {data.get('seed')}"
+                + (f", at {eng(data['frequency_hz'], 'Hz')}" if data.get("frequency_hz") else "") + ".")]
+    stats = data.get("quantities", {})
+    keys = []
+    for st in stats.values():
+        keys += [k for k in st if k not in keys]
+    if stats:
+        t = Table(["quantity"] + keys)
+        for q, st in stats.items():
+            t.add(q, *[_cell(st.get(k)) for k in keys])
+        out.append(t.html())
+    for q, arr in (getattr(res, "magnitudes", None) or {}).items():
+        out.append(f"<h3>|{escape(q)}|</h3>" + histogram_svg(arr, xlabel=f"|{q}|", label=f"histogram of |{q}|"))
+    ys = data.get("yield", [])
+    if ys:
+        cols = []
+        for y in ys:
+            cols += [k for k in y if k not in cols]
+        t = Table(cols)
+        for y in ys:
+            t.add(*[_cell(y.get(k)) for k in cols])
+        out.append("<h3>Yield</h3>" + t.html())
+    for n in data.get("notes", []):
+        out.append(para(n, "note"))
+    return "".join(out)
+
+
 def noise_section(ctx: Context) -> Section | None:
-    return _optional(ctx, "noise", _generic)
+    return _optional(ctx, "noise", noise_html)
 
 
 def sensitivity_section(ctx: Context) -> Section | None:
-    return _optional(ctx, "sensitivity", _generic)
+    return _optional(ctx, "sensitivity", sensitivity_html)
 
 
 def spread_section(ctx: Context) -> Section | None:
-    return _optional(ctx, "spread", _generic)
+    return _optional(ctx, "spread", spread_html)
 
 
 def loop_html(res) -> str:
