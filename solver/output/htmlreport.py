@@ -592,7 +592,8 @@ def noise_html(res, data: dict) -> str:
     band = tot.get("band_hz")
     if band:
         t.add("band", f"{eng(band[0], 'Hz')} to {eng(band[-1], 'Hz')}")
-    for key, label, unit in (("output_rms", "output noise (rms)", "V"), ("input_rms", "input noise (rms)", ""),
+    unit_sig = "A" if data.get("signal", {}).get("kind") == "current" else "V"
+    for key, label, unit in (("output_rms", "output noise (rms)", "V"), ("input_rms", "input noise (rms)", unit_sig),
                              ("nf_db", "noise figure over the band (dB)", ""), ("snr_db", "signal-to-noise (dB)", "")):
         if tot.get(key) is not None:
             t.add(label, _cell(tot[key], unit))
@@ -606,7 +607,7 @@ def noise_html(res, data: dict) -> str:
         t = Table(["element", "kind", "where", "share", "output"])
         for r in rows[:10]:
             t.add(r["element"], r.get("kind", ""), r.get("where", ""),
-                  Num(r["share"], "", text=f"{100 * r['share']:.1f} %") if isinstance(r["share"], float) else "",
+                  Num(r["share"], "", text=f"{100 * r['share']:.3g} %") if isinstance(r["share"], float) else "",
                   _cell(r.get("output"), "V"))
         out.append("<h3>Contributions (top ten)</h3>" + t.html())
     return "".join(out)
