@@ -92,3 +92,43 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
             raise p.fail(explain_singular(p.circuit, f, str(e))) from None
         warnings = p.warnings + conditioning(p.circuit, f)
     return Result(p.circuit, f, pr.quantities, device_table(p.circuit), p.notes + why, p.bias, warnings)
+
+
+# --- tolerances, Monte Carlo and part values (issue 14) ------------------------------------------
+def _circuit(circuit) -> Circuit:
+    return circuit if isinstance(circuit, Circuit) else load(circuit)
+
+
+def sensitivity(circuit: Circuit | str | Path, quantities=None, at: float | None = None, force: bool = False):
+    """Normalised sensitivities (x/Q)·dQ/dx of port quantities, ranked (see solver.analysis.sensitivity).
+
+    Returns a :class:`solver.analysis.sensitivity.SensitivityResult` (``.to_dict()``,
+    ``.to_json()``, ``.warnings``).
+    """
+    from solver.analysis.sensitivity import sensitivity as run
+    with paused_gc():
+        return run(_circuit(circuit), quantities, at, force)
+
+
+def spread(circuit: Circuit | str | Path, samples: int = 1000, seed: int | None = None, at: float | None = None,
+           worst: bool = False, force: bool = False):
+    """Monte Carlo over the netlist's ``spread`` lines (see solver.analysis.spread).
+
+    Returns a :class:`solver.analysis.spread.SpreadResult` (``.to_dict()``, ``.to_json()``,
+    ``.warnings``).
+    """
+    from solver.analysis.spread import spread as run
+    with paused_gc():
+        return run(_circuit(circuit), samples, seed, at, worst, force)
+
+
+def tune(circuit: Circuit | str | Path, quantity: str, target: float, vary: str, series: str | None = None,
+         at: float | None = None, force: bool = False):
+    """The value of ``vary`` that makes ``quantity`` reach ``target`` (see solver.analysis.tune).
+
+    Returns a :class:`solver.analysis.tune.TuneResult`; raises
+    :class:`solver.analysis.tune.NoSolution` when no value in range reaches the target.
+    """
+    from solver.analysis.tune import tune as run
+    with paused_gc():
+        return run(_circuit(circuit), quantity, target, vary, series, at, force)

@@ -39,6 +39,11 @@ def _vt(temp):
     return BOLTZMANN * temp / ELEMENTARY_CHARGE
 
 
+def _threshold(v_ref, i_s, vt):
+    """dcmodels' region threshold (the junction voltage carrying v_ref's reference current) over arrays."""
+    return v_ref * vt / dm._VT_REF + vt * np.log(dm._I_S_REF / i_s)
+
+
 def _exp_lin(x):
     cap = dm.EXP_MAX
     e = np.exp(np.minimum(x, cap))
@@ -161,8 +166,8 @@ class _Dev:
         if self.kind == "bjt":
             s = self.pol
             vbe, vbc = s * u[:, 1], s * (u[:, 1] - u[:, 0])
-            on = vbe >= dm._threshold(dm.V_BE_ON, self.i_s, self.vt)
-            sat = vbc > dm._threshold(dm.V_BC_SAT, self.i_s, self.vt)
+            on = vbe >= _threshold(dm.V_BE_ON, self.i_s, self.vt)
+            sat = vbc > _threshold(dm.V_BC_SAT, self.i_s, self.vt)
             return on & ~sat, np.abs(i[:, 0]), None
         if self.kind == "mos":
             s = self.pol

@@ -34,6 +34,11 @@ class _Lane:
 
     __rmul__ = __mul__
 
+    def __add__(self, o):
+        return _Lane(self.a + (o.a if isinstance(o, _Lane) else o))
+
+    __radd__ = __add__
+
     def __neg__(self):
         return _Lane(-self.a)
 
