@@ -12,7 +12,7 @@ __all__ = ["load", "loads", "solve", "Result", "InputError"]
 
 
 def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
-    if name in ("load", "loads", "solve", "Result"):
+    if name in ("load", "loads", "solve", "Result", "sensitivity", "spread", "tune"):
         from solver import api
         return getattr(api, name)
     if name == "InputError":

@@ -57,23 +57,6 @@ class SensitivityResult:
     notes: list[str] = field(default_factory=list)
     warnings: list[Diagnostic] = field(default_factory=list)
 
-    def to_dict(self) -> dict:
-        from solver.output.jsonout import number
-
-        def cplx(z):
-            return {"re": number(z.real), "im": number(z.imag)}
-        out = {"frequency_hz": self.frequency_hz,
-               "values": {q: cplx(v) for q, v in self.values.items()},
-               "quantities": {q: [{"parameter": r["parameter"], "value": number(r["value"]),
-                                   "normalized": cplx(r["normalized"]), "via": r["via"]} for r in rows]
-                              for q, rows in self.quantities.items()}}
-        if self.notes:
-            out["notes"] = list(self.notes)
-        return out
-
-    def to_json(self) -> str:
-        import json
-        return json.dumps(self.to_dict(), indent=2, allow_nan=False)
 
 
 def _solver(A):

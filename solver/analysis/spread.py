@@ -102,24 +102,6 @@ class SpreadResult:
     notes: list[str] = field(default_factory=list)
     warnings: list[Diagnostic] = field(default_factory=list)
 
-    def to_dict(self) -> dict:
-        from solver.output.jsonout import number
-        out = {"samples": self.samples, "seed": self.seed, "frequency_hz": self.frequency_hz,
-               "quantities": {q: {k: number(v) for k, v in st.items()} for q, st in self.quantities.items()},
-               "yield": [{k: number(v) if isinstance(v, float) else v for k, v in y.items()} for y in self.yields],
-               "out_of_region": self.out_of_region, "failed": self.failed,
-               "spreads": [{"name": s.name, "lo": s.lo, "hi": s.hi, "dist": s.dist, "line": s.line}
-                           for s in self.spreads]}
-        if self.worst is not None:
-            out["worst"] = {q: {k: (number(v) if isinstance(v, float) else v) for k, v in w.items()}
-                            for q, w in self.worst.items()}
-        if self.notes:
-            out["notes"] = list(self.notes)
-        return out
-
-    def to_json(self) -> str:
-        import json
-        return json.dumps(self.to_dict(), indent=2, allow_nan=False)
 
 
 def spread(circuit: Circuit, samples: int = DEFAULT_SAMPLES, seed: int | None = None, at: float | None = None,

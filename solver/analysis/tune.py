@@ -62,21 +62,6 @@ class TuneResult:
     notes: list[str] = field(default_factory=list)
     warnings: list[Diagnostic] = field(default_factory=list)
 
-    def to_dict(self) -> dict:
-        from solver.output.jsonout import number
-        out = {"parameter": self.parameter, "value": number(self.value), "quantity": self.quantity,
-               "target": number(self.target), "series": self.series,
-               "below": self.below and {k: number(v) for k, v in self.below.items()},
-               "above": self.above and {k: number(v) for k, v in self.above.items()},
-               "roots": [number(r) for r in self.roots], "nominal": number(self.nominal),
-               "magnitude": self.magnitude, "method": self.method, "frequency_hz": self.frequency_hz}
-        if self.notes:
-            out["notes"] = list(self.notes)
-        return out
-
-    def to_json(self) -> str:
-        import json
-        return json.dumps(self.to_dict(), indent=2, allow_nan=False)
 
 
 def bilinear_fit(xs, qs):

@@ -78,6 +78,10 @@ def spread_spec(res, s: Spread, scope, specs, source: str) -> SpreadSpec:
         dev = res.device(entry)
         nominal = dev.params.get(key, DEVICE_DEFAULTS.get(kw, {}).get(key))
         if nominal is None:
+            from solver.circuit.devices import needs_bias
+            if needs_bias(dev) and key in ("gm", "ro", "rpi", "ic", "id", "vov", "rd", "gmb"):
+                raise error(ref.loc, f"{entry.full}.{key} follows from the bias point: spread what sets it "
+                            f"(the bias resistors, the supply, {', '.join(k for k in allowed if k in ('beta', 'va', 'is', 'k', 'vth', 'lambda', 'n'))})")
             raise error(ref.loc, f"{entry.full} has no {key}= to spread: give it on the {kw} line")
         kind, dim, target = "device", allowed[key], entry.full
     elif rest and not (entry.kind == "signal" and rest == ["rs"]):

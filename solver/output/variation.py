@@ -3,6 +3,8 @@ from __future__ import annotations
 
 import math
 
+from solver.output.jsonout import number
+
 from solver.language.units import eng
 
 _UNITS = {"Rin": "Ω", "Rout": "Ω", "Zt": "Ω", "Zto": "Ω"}
@@ -86,3 +88,48 @@ def tune_report(r) -> str:
     for n in r.notes:
         lines.append(n if n.lower().startswith(("note", "warning", "caution")) else f"note: {n}")
     return "\n".join(lines)
+
+
+def spread_json(r) -> dict:
+    """The JSON object of ``portwise spread`` (the issue's shape, numbers by one rule)."""
+    out = {"samples": r.samples, "seed": r.seed, "frequency_hz": r.frequency_hz,
+           "quantities": {q: {k: number(v) for k, v in st.items()} for q, st in r.quantities.items()},
+           "yield": [{k: number(v) if isinstance(v, float) else v for k, v in y.items()} for y in r.yields],
+           "out_of_region": r.out_of_region, "failed": r.failed,
+           "spreads": [{"name": s.name, "lo": s.lo, "hi": s.hi, "dist": s.dist, "line": s.line}
+                       for s in r.spreads]}
+    if r.worst is not None:
+        out["worst"] = {q: {k: (number(v) if isinstance(v, float) else v) for k, v in w.items()}
+                        for q, w in r.worst.items()}
+    if r.notes:
+        out["notes"] = list(r.notes)
+    return out
+
+
+def sensitivity_json(r) -> dict:
+    """The JSON object of ``portwise sensitivity`` (the issue's shape, numbers by one rule)."""
+
+    def cplx(z):
+        return {"re": number(z.real), "im": number(z.imag)}
+    out = {"frequency_hz": r.frequency_hz,
+           "values": {q: cplx(v) for q, v in r.values.items()},
+           "quantities": {q: [{"parameter": row["parameter"], "value": number(row["value"]),
+                               "normalized": cplx(row["normalized"]), "via": row["via"]} for row in rows]
+                          for q, rows in r.quantities.items()}}
+    if r.notes:
+        out["notes"] = list(r.notes)
+    return out
+
+
+def tune_json(r) -> dict:
+    """The JSON object of ``portwise tune`` (the issue's shape, numbers by one rule)."""
+    out = {"parameter": r.parameter, "value": number(r.value), "quantity": r.quantity,
+           "target": number(r.target), "series": r.series,
+           "below": r.below and {k: number(v) for k, v in r.below.items()},
+           "above": r.above and {k: number(v) for k, v in r.above.items()},
+           "roots": [number(x) for x in r.roots], "nominal": number(r.nominal),
+           "magnitude": r.magnitude, "method": r.method, "frequency_hz": r.frequency_hz}
+    if r.notes:
+        out["notes"] = list(r.notes)
+    return out
+
