@@ -151,10 +151,13 @@ class _Dev:
     def limit(self, u_new, u_old):
         if self.kind == "bjt":
             s = self.pol
-            vbe = s * _limit_junction(s * u_new[:, 1], s * u_old[:, 1], self.vt, self.vcrit)
-            vbc = s * _limit_junction(s * (u_new[:, 1] - u_new[:, 0]), s * (u_old[:, 1] - u_old[:, 0]),
-                                      self.vt, self.vcrit)
-            return np.stack([vbe - vbc, vbe], 1)
+            fe, fc = s * u_new[:, 1], s * (u_new[:, 1] - u_new[:, 0])
+            le = _limit_junction(fe, s * u_old[:, 1], self.vt, self.vcrit)
+            lc = _limit_junction(fc, s * (u_old[:, 1] - u_old[:, 0]), self.vt, self.vcrit)
+            # only a junction the limiting moved changes the controls (V_BE - V_BC does not give
+            # V_CE back bit for bit, which would count as a limited step for ever)
+            moved = ((le != fe) | (lc != fc))[:, None]
+            return np.where(moved, np.stack([s * le - s * lc, s * le], 1), u_new)
         if self.kind == "mos":
             return np.stack([np.clip(u_new[:, 0], u_old[:, 0] - 4.0, u_old[:, 0] + 4.0),
                              np.clip(u_new[:, 1], u_old[:, 1] - 2.0, u_old[:, 1] + 2.0)], 1)
@@ -216,7 +219,7 @@ def solve(c, linear, values: dict, dev_params: dict, n: int, start: dict[str, fl
         ``converged`` a boolean array; the device arrays are valid where it is true.
     """
     st = BatchStamper(linear, c.ground, values, n).stamp_all()
-    G, _, b0 = st.stacks(float)
+    G, b0 = st.matrix(0, float), st.rhs_stack(float)
     devs = [_Dev(d, dev_params[d.name], st) for d in c.devices]
     x0 = np.zeros(st.size)
     for name, i in st.nodes.items():
@@ -231,7 +234,7 @@ def solve(c, linear, values: dict, dev_params: dict, n: int, start: dict[str, fl
             if active.size == 0:
                 break
             sub = [d.take(active) for d in devs]
-            A, b = G[active].copy(), b0[active].copy()
+            A, b = G[active], b0[active]  # (fancy indexing: copies)
             us = [u[active] for u in u_all]
             evals = [d.evaluate(u) for d, u in zip(sub, us)]
             for d, u, (i0, jac) in zip(sub, us, evals):

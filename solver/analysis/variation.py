@@ -31,6 +31,7 @@ from solver.analysis import batchbias
 from solver.analysis import scenarios as sc
 from solver.analysis.ports import _Solves
 from solver.circuit.devices import needs_bias
+from solver.circuit.elements import CurrentSource
 from solver.circuit.model import Circuit, SpreadSpec
 from solver.circuit.views import dc_elements
 from solver.diagnostics import InputError, Loc, error
@@ -363,16 +364,32 @@ class Evaluator:
         return out
 
     def _ports(self, values: dict, n: int) -> dict[str, np.ndarray]:
+        """Every quantity's read-outs; configurations whose matrices are the same (the signal
+        driven and the output test without the load: a source's value only enters b) are
+        factorised once and solved for all their right-hand sides together."""
+        configs = {}
+        for m in self.measurements.values():
+            configs.setdefault(m.config.key, m.config)
+        groups: dict = {}
+        for key, cfg in configs.items():
+            shape = tuple(sorted(e.name for e in cfg.elements if not isinstance(e, CurrentSource)))
+            groups.setdefault(shape, []).append((key, cfg))
         solved: dict = {}
+        for members in groups.values():
+            sts = [BatchStamper(list(cfg.elements), self.circuit.ground, values, n).stamp_all()
+                   for _, cfg in members]
+            A = sts[0].matrix(self.s)
+            bs = np.stack([st.rhs_stack() for st in sts], 2)
+            with np.errstate(all="ignore"):
+                try:
+                    xs = np.linalg.solve(A, bs)
+                except np.linalg.LinAlgError:
+                    xs = np.stack([solve_stacked(A, bs[:, :, j]) for j in range(bs.shape[2])], 2)
+            for j, ((key, _), st) in enumerate(zip(members, sts)):
+                solved[key] = (st, xs[:, :, j])
         out = {}
         for q, m in self.measurements.items():
-            key = m.config.key
-            if key not in solved:
-                st = BatchStamper(list(m.config.elements), self.circuit.ground, values, n).stamp_all()
-                G, C, b = st.stacks()
-                A = G + self.s * C if self.s != 0 else G
-                solved[key] = (st, solve_stacked(A, b))
-            st, x = solved[key]
+            st, x = solved[m.config.key]
 
             def read(terms):
                 total = np.zeros(n, complex)

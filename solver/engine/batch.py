@@ -90,19 +90,43 @@ class BatchStamper(Stamper):
         v = self.values.get(e.name)
         return 1.0 / e.value if v is None else _Lane(1.0 / np.asarray(v))
 
-    def stacks(self, dtype=complex):
-        """(G, C, b) of shape (n, size, size), (n, size, size), (n, size)."""
+    def _summed(self, trip):
+        """{flat index r*size + c: summed value (a number or an array over the samples)}."""
+        m, acc = self.size, {}
+        for r, c, v in trip:
+            k = r * m + c
+            acc[k] = acc[k] + _raw(v) if k in acc else _raw(v)
+        return acc
+
+    def _scatter(self, acc, dtype):
         n, m = self.n, self.size
-        G = np.zeros((n, m, m), dtype=dtype)
-        C = np.zeros((n, m, m), dtype=dtype)
-        b = np.zeros((n, m), dtype=dtype)
-        for r, c, v in self._g:
-            G[:, r, c] += _raw(v)
-        for r, c, v in self._c:
-            C[:, r, c] += _raw(v)
+        out = np.zeros((n, m * m), dtype=dtype)
+        if acc:
+            keys = np.fromiter(acc, dtype=np.intp, count=len(acc))
+            vals = np.empty((len(acc), n), dtype=dtype)
+            for i, v in enumerate(acc.values()):
+                vals[i] = v
+            out[:, keys] = vals.T
+        return out.reshape(n, m, m)
+
+    def matrix(self, s: complex = 0, dtype=complex) -> np.ndarray:
+        """The stacked G + sC, shape (n, size, size), assembled in one scatter per entry set."""
+        acc = self._summed(self._g)
+        if s != 0:
+            for k, v in self._summed(self._c).items():
+                acc[k] = acc[k] + s * v if k in acc else s * v
+        return self._scatter(acc, dtype)
+
+    def rhs_stack(self, dtype=complex) -> np.ndarray:
+        b = np.zeros((self.n, self.size), dtype=dtype)
         for r, v in self._b.items():
             b[:, r] += _raw(v)
-        return G, C, b
+        return b
+
+    def stacks(self, dtype=complex):
+        """(G, C, b) of shape (n, size, size), (n, size, size), (n, size)."""
+        return (self._scatter(self._summed(self._g), dtype), self._scatter(self._summed(self._c), dtype),
+                self.rhs_stack(dtype))
 
 
 def solve_stacked(A: np.ndarray, b: np.ndarray) -> np.ndarray:
