@@ -489,12 +489,12 @@ class _Rules:
         return Claim(q.value, kind, value, tol[0] if tol else None, self._loc(q), self._loc(q))
 
     def spread(self, items):
-        target, lo, *rest = items
+        target, lo, *rest = [i for i in items if getattr(i, "type", None) != "RANGE"]
         hi = rest.pop(0) if rest and not isinstance(rest[0], Param) else None
         return Spread(target, lo, hi, rest, target.loc)
 
     def spec(self, items):
-        q, lo, hi = items
+        q, lo, _, hi = items
         return Spec(q.value, lo, hi, self._loc(q))
 
     def bound(self, items):
@@ -586,7 +586,7 @@ def _run(start: str, text: str, file: str):
 _EXPECT_NAMES = {"NAME": "a name", "QUANTITY": "a number", "_NL": "end of line", "LPAR": "'('",
                  "RPAR": "')'", "COMMA": "','", "EQUAL": "'='", "STRING": "a quoted string",
                  "$END": "end of file", "ADD_OP": "'+' or '-'", "MUL_OP": "'*' or '/'", "POW_OP": "'^'",
-                 "PAR_OP": "'||'", "CLAIM_OP": "'=' or '~'", "DOT": "'.'", "__ANON_0": "'..'", "WITHIN": "'within'",
+                 "PAR_OP": "'||'", "CLAIM_OP": "'=' or '~'", "DOT": "'.'", "RANGE": "'..'", "WITHIN": "'within'",
                  "VALUED_KW": "an element keyword", "CONTROLLED_KW": "an element keyword",
                  "SENSED_KW": "an element keyword", "DEVICE_KW": "a device keyword"}
 
