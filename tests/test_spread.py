@@ -3,8 +3,6 @@ from __future__ import annotations
 
 import json
 import math
-import subprocess
-import sys
 from pathlib import Path
 
 import numpy as np
@@ -332,24 +330,33 @@ def test_spec_in_db_converted():
 
 
 # --- the command line ---------------------------------------------------------------------------------
-def _cli(*args):
-    return subprocess.run([sys.executable, "-m", "solver", *args], capture_output=True, text=True, cwd=ROOT,
-                          timeout=120)
+def _cli(capsys, *args):
+    from solver.cli import main
+    rc = main(list(args))
+    out = capsys.readouterr()
+    return rc, out.out, out.err
 
 
-def test_cli_spread_json_and_tune_exit_codes(tmp_path):
+def test_cli_spread_json_and_tune_exit_codes(tmp_path, capsys):
     f = tmp_path / "div.pw"
     f.write_text(DIVIDER + "spread R1 5%\nspec Gv 0.7 .. 0.8\n")
-    r = _cli("spread", str(f), "--samples", "300", "--seed", "4", "--worst", "--json")
-    assert r.returncode == 0, r.stderr
-    d = json.loads(r.stdout)
+    rc, out, err = _cli(capsys, "spread", str(f), "--samples", "300", "--seed", "4", "--worst", "--json")
+    assert rc == 0, err
+    d = json.loads(out)
     assert d["samples"] == 300 and d["seed"] == 4 and d["out_of_region"] == 0
     assert set(d["quantities"]["Gv"]) >= {"mean", "std", "min", "max", "p1", "p50", "p99"}
     assert d["yield"][0]["line"] == 6 and d["yield"][0]["spec"] == "Gv 0.7 .. 0.8"
     assert set(d["worst"]["Gv"]) >= {"min", "max", "corner_min"}
-    r = _cli("tune", str(f), "--set", "Gv=2", "--vary", "R1")
-    assert r.returncode == 1 and "no solution" in r.stderr
-    r = _cli("tune", str(f), "--set", "Gv=0.5", "--vary", "R1", "--series", "E12", "--json")
-    assert r.returncode == 0 and json.loads(r.stdout)["value"] == pytest.approx(3000.0)
-    r = _cli("spread", str(ROOT / "circuits" / "mic_preamp.pw"))
-    assert r.returncode == 2 and "no 'spread' lines" in r.stderr
+    rc, out, err = _cli(capsys, "tune", str(f), "--set", "Gv=2", "--vary", "R1")
+    assert rc == 1 and "no solution" in err
+    rc, out, err = _cli(capsys, "tune", str(f), "--set", "Gv=0.5", "--vary", "R1", "--series", "E12", "--json")
+    assert rc == 0 and json.loads(out)["value"] == pytest.approx(3000.0)
+    rc, out, err = _cli(capsys, "sensitivity", str(f), "Gv")
+    assert rc == 0 and "R1" in out and "R2" in out
+    rc, out, err = _cli(capsys, "spread", str(ROOT / "circuits" / "mic_preamp.pw"))
+    assert rc == 2 and "no 'spread' lines" in err
+    plot = tmp_path / "h.png"
+    rc, out, err = _cli(capsys, "spread", str(f), "--samples", "50", "--seed", "1", "--plot", str(plot))
+    assert rc == 0 and plot.read_bytes()[:4] == b"\x89PNG"
+    rc, out, err = _cli(capsys, "spread", str(f), "--samples", "50", "--plot", str(plot))
+    assert rc == 2 and "--overwrite" in err  # nothing the user has is replaced without asking
