@@ -75,6 +75,18 @@ def test_ce_gain_sensitivity_to_rc_is_one():
     assert res.quantities["Av"][0]["parameter"] in ("RC", "Q1.gm")  # ranked by |S|
 
 
+def test_operating_point_parameters_by_the_chain_rule():
+    # gm = IC/VT and rpi = beta/gm (Sedra & Smith, 7th ed., section 7.2, from memory): a device
+    # given by ic= and beta= has S_ic = S_gm - S_rpi and S_beta = S_rpi (ro = inf here)
+    c = solver.loads("signal VS (b, gnd) 1 mV, rs=2k\nsupply VCC (vcc, gnd) 12 V\nresistor RC (vcc, c) 10k\n"
+                     "resistor RE1 (e, gnd) 100\nnpn Q1 (c, b, e) ic=1 mA, beta=100\noutput (c, gnd)\n")
+    rows = _rows(solver.sensitivity(c, ["Gv"]), "Gv")
+    s_gm, s_rpi = rows["Q1.gm"]["normalized"], rows["Q1.rpi"]["normalized"]
+    assert abs(rows["Q1.ic"]["normalized"] - (s_gm - s_rpi)) < 1e-8
+    assert abs(rows["Q1.beta"]["normalized"] - s_rpi) < 1e-8
+    assert rows["Q1.ic"]["via"] == "device parameter"
+
+
 @pytest.mark.parametrize("name, old, new", [
     ("RC", "resistor RC (vcc, c) 4k7", "resistor RC (vcc, c) {v}"),
     ("R1", "resistor R1 (vcc, b) 82k", "resistor R1 (vcc, b) {v}"),

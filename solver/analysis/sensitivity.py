@@ -176,6 +176,26 @@ def dc_knobs(c: Circuit) -> list[Knob]:
     return out
 
 
+#: parameters of a device given by its operating point that set its small-signal model
+OP_GIVEN = ("ic", "beta", "va", "id", "vov", "lambda")
+
+
+def device_knobs(c: Circuit) -> list[Knob]:
+    """The operating-point parameters of devices that give them (``Q1.ic``, ``Q1.beta``, ``M1.id``)."""
+    from solver.analysis.variation import knob
+    out = []
+    for d in c.devices:
+        if needs_bias(d):
+            continue
+        for k in OP_GIVEN:
+            if k in d.params:
+                try:
+                    out.append(knob(c, f"{d.name}.{k}", "sensitivity"))
+                except Exception:  # noqa: BLE001 - a name the knob syntax cannot reach
+                    continue
+    return out
+
+
 def sensitivity(circuit: Circuit, quantities=None, at: float | None = None, force: bool = False) -> SensitivityResult:
     """Normalised sensitivities of port quantities to every parameter, ranked by magnitude.
 
@@ -222,6 +242,7 @@ def sensitivity(circuit: Circuit, quantities=None, at: float | None = None, forc
             return True
     biased = pipeline.needs_bias_solve(c)
     through = dc_knobs(c) if biased else []
+    through += [k for k in device_knobs(c) if k.name not in {t.name for t in through}]
     through_names = {k.name for k in through}
     values, out = {}, {}
     for q in qs:
@@ -255,13 +276,13 @@ def sensitivity(circuit: Circuit, quantities=None, at: float | None = None, forc
                 ok = got.valid[2 * j] and got.valid[2 * j + 1]
                 dq = (vals[2 * j + 1] - vals[2 * j]) / (2 * h) if ok else complex(math.nan)
                 sn = complex(k.nominal * dq / values[q]) if values[q] != 0 else complex(math.nan)
-                out[q].append({"parameter": k.name, "value": float(k.nominal), "normalized": sn,
-                               "via": "bias point"})
+                via = "bias point" if biased else "device parameter"
+                out[q].append({"parameter": k.name, "value": float(k.nominal), "normalized": sn, "via": via})
     for q in qs:
         out[q].sort(key=lambda r: (-abs(r["normalized"]) if np.isfinite(abs(r["normalized"])) else 1.0,
                                    r["parameter"]))
     notes = list(p.notes) + why
-    if through:
+    if through and biased:
         notes.append("rows 'via bias point' move the operating point (gm, rπ, ro follow); rows 'via adjoint' "
                      "are at the fixed bias point")
     return SensitivityResult(bc, f, values, out, notes, list(p.warnings))
