@@ -57,12 +57,12 @@ def neighbours(x: float, series: str = "E24") -> tuple[float, float]:
     for e in (exp - 1, exp, exp + 1):
         for m in mant:
             v = float(f"{m * 10.0 ** e:.6g}")  # exact decimal, no binary residue (4.7e3, not 4700.000000001)
-            if v <= x * (1 + 1e-12) and (below is None or v > below):
+            if v <= x * (1 + 1e-9) and (below is None or v > below):
                 below = v
-            if v >= x * (1 - 1e-12) and (above is None or v < above):
+            if v >= x * (1 - 1e-9) and (above is None or v < above):
                 above = v
-    if abs(below - x) <= 1e-12 * x:
+    if abs(below - x) <= 1e-9 * x:  # on a standard value, to the accuracy of a solve
         above = below
-    elif abs(above - x) <= 1e-12 * x:
+    elif abs(above - x) <= 1e-9 * x:
         below = above
     return below, above

@@ -145,8 +145,9 @@ def adjoint(c: Circuit, m: sc.Measurement, s: complex, params: dict[str, str]):
     else:
         den, dden = 1.0 + 0j, {}
     q = num / den if den != 0 else complex(math.inf)
-    grads = {p: (dnum.get(p, 0j) * den - num * dden.get(p, 0j)) / (den * den)
-             for p in set(dnum) | set(dden)}
+    with np.errstate(all="ignore"):  # Q = v/0 (a virtual ground): no derivative, nan below
+        grads = {p: (dnum.get(p, 0j) * den - num * dden.get(p, 0j)) / (den * den) if den != 0
+                 else complex(math.nan) for p in set(dnum) | set(dden)}
     return q, grads
 
 
@@ -254,8 +255,9 @@ def sensitivity(circuit: Circuit, quantities=None, at: float | None = None, forc
             raise p.fail([Diagnostic("error", None, f"the circuit {m.config.description} is singular")]) from None
         values[q] = val
         xs = {e.symbol: e.value for e in m.config.elements if e.symbol}
+        finite = val != 0 and np.isfinite(abs(val))
         rows = [{"parameter": name, "value": float(np.real(xs[name])),
-                 "normalized": complex(xs[name] * g / val) if val != 0 else complex(math.nan), "via": "adjoint"}
+                 "normalized": complex(xs[name] * g / val) if finite else complex(math.nan), "via": "adjoint"}
                 for name, g in grads.items()]
         out[q] = rows
     if through:
@@ -275,13 +277,18 @@ def sensitivity(circuit: Circuit, quantities=None, at: float | None = None, forc
                 h = STEP * abs(k.nominal) or STEP
                 ok = got.valid[2 * j] and got.valid[2 * j + 1]
                 dq = (vals[2 * j + 1] - vals[2 * j]) / (2 * h) if ok else complex(math.nan)
-                sn = complex(k.nominal * dq / values[q]) if values[q] != 0 else complex(math.nan)
+                v = values[q]
+                sn = complex(k.nominal * dq / v) if v != 0 and np.isfinite(abs(v)) else complex(math.nan)
                 via = "bias point" if biased else "device parameter"
                 out[q].append({"parameter": k.name, "value": float(k.nominal), "normalized": sn, "via": via})
     for q in qs:
         out[q].sort(key=lambda r: (-abs(r["normalized"]) if np.isfinite(abs(r["normalized"])) else 1.0,
                                    r["parameter"]))
     notes = list(p.notes) + why
+    for q, v in values.items():
+        if v == 0 or not np.isfinite(abs(v)):
+            notes.append(f"{q} is {'0' if v == 0 else 'infinite'} here: its normalised sensitivities "
+                         "(x/Q)·dQ/dx are not defined (nan)")
     if through and biased:
         notes.append("rows 'via bias point' move the operating point (gm, rπ, ro follow); rows 'via adjoint' "
                      "are at the fixed bias point")
