@@ -39,8 +39,10 @@ from solver.engine.batch import BatchStamper, solve_stacked
 from solver.engine.mna import SingularSystem
 from solver.language import expr as ex
 
-#: samples per block of stacked matrices (bounds the memory: 16 n^2 bytes per sample)
+#: samples per block of stacked matrices, at most; fewer for a large system, so that one block
+#: of complex matrices stays within BLOCK_BYTES (16 size^2 bytes per sample)
 CHUNK = 2048
+BLOCK_BYTES = 64_000_000
 #: device parameters that only the bias solve reads (left out of the small-signal bias form)
 _DC_ONLY = ("k", "vth", "is", "beta_r", "pmax")
 
@@ -156,6 +158,11 @@ class Evaluator:
             ties, _ = B.floating_ties(c, linear)
             self.linear = linear + ties
         self._deps: dict | None = None
+        from solver.engine.mna import Stamper
+        sizes = [Stamper(list(m.config.elements), bc.ground).size for m in self.measurements.values()]
+        if self.biased:
+            sizes.append(Stamper(self.linear, c.ground).size)
+        self.chunk = max(1, min(CHUNK, BLOCK_BYTES // (16 * max(sizes + [1]) ** 2)))
 
     # --- 1. the netlist's values per sample -------------------------------------------------
     def _slots(self):
@@ -267,8 +274,8 @@ class Evaluator:
         valid = np.zeros(n, bool)
         oor = np.zeros(n, bool)
         failed = np.zeros(n, bool)
-        for lo in range(0, n, CHUNK):
-            hi = min(n, lo + CHUNK)
+        for lo in range(0, n, self.chunk):
+            hi = min(n, lo + self.chunk)
             part = {k: np.asarray(v, float)[lo:hi] for k, v in settings.items()}
             got = self._run(part, hi - lo)
             for q in qs:
