@@ -210,6 +210,21 @@ def test_let_spread_moves_matched_parts_together():
     assert 16e3 <= rin["min"] < rin["max"] <= 24e3
 
 
+def test_let_spread_reevaluates_every_expression_that_uses_it():
+    # the reference: the ordinary solve of the netlist with the let edited
+    t = ("let R = 10k\nlet G = 2\nsignal VS (a, gnd) 1 V, rs=R/10\nresistor R1 (a, b) R || 30k\n"
+         "resistor R2 (b, gnd) G*R + R1\nresistor R3 (b, gnd) sqrt(R*R) ^ 1\n"
+         "npn Q1 (c, b, gnd) ic=R/10k * 1 mA, beta=100\nresistor RC (c, gnd) 1k\noutput (c, gnd)\n")
+    c = solver.loads(t)
+    ev = Evaluator(c, prepare(c), 0.0, ["Gv", "Rin"])
+    vals = np.array([5e3, 20e3])
+    got = ev.run({knob(c, "R"): vals}, 2)
+    for i, r in enumerate(vals):
+        ref = solver.solve(solver.loads(t.replace("let R = 10k", f"let R = {float(r)!r}")), 0.0).quantities
+        for q in ("Gv", "Rin"):
+            assert got.quantities[q][i] == pytest.approx(ref[q], rel=1e-12)
+
+
 def test_wilson_interval_against_scipy():
     # scipy.stats.binomtest(...).proportion_ci(method="wilson") (Wilson 1927)
     from scipy.stats import binomtest, norm

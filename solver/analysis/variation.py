@@ -217,6 +217,7 @@ class Evaluator:
             memo[entry.full] = got
             return got
 
+        self._of_entry = of_entry
         deps = {}
         for slot, entry, extra in self._slots():
             if entry is None:
@@ -230,6 +231,10 @@ class Evaluator:
                 deps[slot] = (entry, None, of_entry(entry, {entry.full}))
         self._deps = deps
         return deps
+
+    def _reach_of(self, entry) -> set:
+        """The full names a let's or an element's expression reaches (after _dependencies)."""
+        return self._of_entry(entry, {entry.full})
 
     def _values(self, settings: dict, n: int) -> dict:
         """Slot -> per-sample array (or the nominal number) for the slots that move."""
@@ -249,21 +254,57 @@ class Evaluator:
         if not moving:
             return out
         res = self.src.resolver
-        dims = {}
-        for full in named:
-            ent = _entry(res, full)
-            dims[full] = res.value_of(ent, None, ent.loc).dim
-        arrays = {slot: np.empty(n) for slot, _ in moving}
-        for i in range(n):  # expressions are evaluated by our own tree walker, one sample at a time
-            r = res.rebound([])
-            for full, arr in named.items():
-                r.memo[(full, None)] = ex.Value(float(arr[i]), dims[full])
+        moving_names = set(named)
+
+        def moves(entry):
+            return entry.full in moving_names or bool(self._reach_of(entry) & moving_names)
+
+        def vec(e, scope):
+            """The expression over the samples: the arithmetic of solver.language.expr.evaluate
+            on arrays (dimensions were checked at elaboration; a value outside a function's
+            domain becomes nan, and its sample is dropped)."""
+            if isinstance(e, ex.Num):
+                return e.value
+            if isinstance(e, ex.Ref):
+                entry, attr = res.resolve(e, scope)
+                if entry is None:
+                    return ex.CONSTANTS[attr]
+                if attr is None and entry.full in named:
+                    return named[entry.full]
+                if attr is None and entry.kind in ("let", "param") and moves(entry):
+                    return vec(entry.expr, entry.scope)
+                if attr is None and entry.kind == "element" and moves(entry):
+                    return vec(entry.stmt.value, entry.scope)
+                return res.value_of(entry, attr, e.loc).x
+            if isinstance(e, ex.Unary):
+                return -vec(e.operand, scope)
+            if isinstance(e, ex.Call):
+                v = np.asarray(vec(e.arg, scope), float)
+                f = {"sqrt": np.sqrt, "abs": np.abs, "exp": np.exp, "ln": np.log, "log10": np.log10}[e.func]
+                return f(v)
+            a, b = np.asarray(vec(e.left, scope), float), np.asarray(vec(e.right, scope), float)
+            op = e.op
+            if op == "+":
+                return a + b
+            if op == "-":
+                return a - b
+            if op == "*":
+                return a * b
+            if op == "/":
+                return a / b
+            if op == "^":
+                return np.power(a, b)
+            return np.where(np.isinf(a), b, np.where(np.isinf(b), a, a * b / (a + b)))  # ||
+        arrays = {}
+        with np.errstate(all="ignore"):
             for slot, (entry, extra, _) in moving:
                 if slot[0] == "device":
-                    v = ex.evaluate(extra.value, r.lookup(entry.scope)).x
+                    v = vec(extra.value, entry.scope)
+                elif slot[0] == "rs":
+                    v = vec(next(p for p in entry.stmt.params if p.key == "rs").value, entry.scope)
                 else:
-                    v = r.value_of(entry, extra, entry.loc).x
-                arrays[slot][i] = v
+                    v = vec(entry.stmt.value if entry.kind == "element" else entry.expr, entry.scope)
+                arrays[slot] = np.broadcast_to(np.asarray(v, float), (n,)).copy()
         out.update(arrays)
         return out
 
