@@ -77,6 +77,11 @@ def stats(mag: np.ndarray) -> dict[str, float]:
     if mag.size == 0:
         nan = math.nan
         return {"mean": nan, "std": nan, "min": nan, "max": nan, "p1": nan, "p50": nan, "p99": nan}
+    if not np.all(np.isfinite(mag)):  # an infinite quantity (Av of a virtual-ground input)
+        with np.errstate(all="ignore"):
+            p1, p50, p99 = np.percentile(mag, [1, 50, 99], method="lower")
+        return {"mean": math.inf, "std": math.nan, "min": float(mag.min()), "max": float(mag.max()),
+                "p1": float(p1), "p50": float(p50), "p99": float(p99)}
     p1, p50, p99 = np.percentile(mag, [1, 50, 99])
     return {"mean": float(mag.mean()), "std": float(mag.std(ddof=1)) if mag.size > 1 else 0.0,
             "min": float(mag.min()), "max": float(mag.max()), "p1": float(p1), "p50": float(p50),

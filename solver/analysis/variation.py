@@ -153,6 +153,13 @@ class Evaluator:
                 return True
 
         self.measurements = {q: sc.chosen(bc, q, singular, solves.base) for q in self.quantities}
+        from solver.analysis.ports import measure
+        self.finite = {}
+        for q in self.quantities:
+            try:
+                self.finite[q] = bool(np.isfinite(measure(bc, q, self.s, solves)))
+            except SingularSystem:
+                self.finite[q] = False
         if self.biased:
             linear = dc_elements(c)
             ties, _ = B.floating_ties(c, linear)
@@ -364,10 +371,14 @@ class Evaluator:
                 continue
             for key, v in ss.items():
                 ac[f"{d.name}.{key}"] = v
-        ok &= ~failed & ~oor
+        for arr in vals.values():  # a value outside a function's domain (sqrt of a negative...)
+            failed |= ~np.isfinite(np.broadcast_to(arr, (n,)))
         quantities = self._ports(ac, n)
-        for q, v in quantities.items():
-            ok &= np.isfinite(v.real)
+        for q, v in quantities.items():  # a singular sample: no solution, counted as failed
+            if self.finite[q]:  # (Av of a virtual-ground input is infinite for every sample)
+                failed |= ~np.isfinite(v)
+        oor &= ~failed
+        ok &= ~failed & ~oor
         return Outcome(quantities, ok, oor, failed)
 
     def _bias(self, values, dev_params, n):
