@@ -247,6 +247,16 @@ def test_yield_and_out_of_region_samples_are_counted_and_excluded():
     assert any("outside its amplifying region" in n for n in r.notes)
 
 
+def test_samples_without_a_solution_are_counted_not_dropped():
+    # sqrt of a negative value has no solution: such samples are 'failed', and the yield counts
+    # only the others
+    c = solver.loads("let X = 1\nsignal VS (a, gnd) 1 V\nresistor R1 (a, b) 1k*sqrt(X)\n"
+                     "resistor R2 (b, gnd) 1k\noutput (b, gnd)\nspread X -1 .. 1\nspec Gv 0 .. 1\n")
+    r = spread(c, samples=400, seed=5)
+    assert 120 < r.failed < 280 and r.out_of_region == 0
+    assert r.yields[0]["counted"] == 400 - r.failed and r.yields[0]["fraction"] == 1.0
+
+
 def test_worst_case_against_exact_corners():
     # the divider's extremes are at the corners R1 high, R2 low (min) and R1 low, R2 high (max):
     # the closed form gives them exactly
