@@ -9,6 +9,8 @@ The layers, in data-flow order: :mod:`solver.language.parse` (grammar -> stateme
 """
 __version__ = "0.1.0"
 __all__ = ["load", "loads", "solve", "Result", "InputError"]
+__all__ += ["loop"]  # feedback: return ratio, asymptotic gain, Blackman, margins
+__all__ += ["sensitivity", "spread", "tune"]  # tolerances, Monte Carlo, part values
 
 
 def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
@@ -18,4 +20,7 @@ def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scip
     if name == "InputError":
         from solver.diagnostics import InputError
         return InputError
+    if name == "loop":
+        from solver import api
+        return api.loop
     raise AttributeError(name)
