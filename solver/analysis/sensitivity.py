@@ -6,7 +6,8 @@ configuration A x = b (the scenario table), and for every parameter p at once
 
     dy/dp = -λᵀ (dA/dp · x - db/dp) + (the read-out's own dependence on p),   Aᵀ λ = r,
 
-so each read-out costs one extra (transposed) solve, whatever the number of parameters
+and since dQ = (dN - Q dD)/D the two read-outs of a quantity fold into one vector: each
+quantity costs one extra (transposed) solve, whatever the number of parameters
 (J. Vlach, K. Singhal, *Computer Methods for Circuit Analysis and Design*, 2nd ed., chapter
 on sensitivity analysis, the adjoint network, from memory). dA/dp and db/dp come from the
 elements' own stamps evaluated with dual numbers (:class:`solver.engine.batch.DualStamper`),
@@ -124,30 +125,27 @@ def adjoint(c: Circuit, m: sc.Measurement, s: complex, params: dict[str, str]):
                 direct[p] = direct.get(p, 0j) - w * v / value_of[t.per.name]
         return y, r, direct
 
-    def derivatives(terms):
-        y, r, direct = readout(terms)
-        lam = solve_t(r)
-        out = dict(direct)
-        for p in set(st.dG) | set(st.dC) | set(st.db):
-            acc = 0j
-            for row, col, d in st.dG.get(p, ()):
-                acc += lam[row] * d * x[col]
-            for row, col, d in st.dC.get(p, ()):
-                acc += lam[row] * s * d * x[col]
-            for row, d in st.db.get(p, ()):
-                acc -= lam[row] * d
-            out[p] = out.get(p, 0j) - acc
-        return y, out
-
-    num, dnum = derivatives(m.num)
+    # dQ/dp = (dN - Q dD)/D with N = r_N x and D = r_D x: both read-outs fold into one vector,
+    # so a quantity costs ONE transposed solve, whatever the number of parameters
+    num, r_num, d_num = readout(m.num)
     if m.den:
-        den, dden = derivatives(m.den)
+        den, r_den, d_den = readout(m.den)
     else:
-        den, dden = 1.0 + 0j, {}
-    q = num / den if den != 0 else complex(math.inf)
-    with np.errstate(all="ignore"):  # Q = v/0 (a virtual ground): no derivative, nan below
-        grads = {p: (dnum.get(p, 0j) * den - num * dden.get(p, 0j)) / (den * den) if den != 0
-                 else complex(math.nan) for p in set(dnum) | set(dden)}
+        den, r_den, d_den = 1.0 + 0j, np.zeros(n, complex), {}
+    if den == 0:  # Q = v/0 (a virtual ground): infinite, no derivative
+        return complex(math.inf), {p: complex(math.nan) for p in set(st.dG) | set(st.dC) | set(st.db)}
+    q = num / den
+    lam = solve_t((r_num - q * r_den) / den)
+    grads = {p: (d_num.get(p, 0j) - q * d_den.get(p, 0j)) / den for p in set(d_num) | set(d_den)}
+    for p in set(st.dG) | set(st.dC) | set(st.db):
+        acc = 0j
+        for row, col, d in st.dG.get(p, ()):
+            acc += lam[row] * d * x[col]
+        for row, col, d in st.dC.get(p, ()):
+            acc += lam[row] * s * d * x[col]
+        for row, d in st.db.get(p, ()):
+            acc -= lam[row] * d
+        grads[p] = grads.get(p, 0j) - acc
     return q, grads
 
 
