@@ -11,7 +11,7 @@ the quantity moves 1 % per 1 % of the part). Small-signal values by the adjoint 
 EPILOG = """\
 examples:
   portwise sensitivity circuits/hydrophone_ce_stage.pw
-  portwise sensitivity circuits/hydrophone_ce_stage.pw Av Rin --at 10kHz --json"""
+  portwise sensitivity circuits/hydrophone_cs_stage.pw Av Rin --at 10kHz --json"""
 
 
 def add_arguments(p) -> None:

@@ -12,9 +12,9 @@ how many samples left the amplifying region (those are left out, and said). --wo
 the worst case over the corners of the ranges."""
 EPILOG = """\
 examples:
-  portwise spread circuits/hydrophone_ce_stage.pw --samples 5000 --seed 7
-  portwise spread circuits/hydrophone_ce_stage.pw --worst --json
-  portwise spread circuits/hydrophone_ce_stage.pw --plot spread.png"""
+  portwise spread circuits/hydrophone_cs_stage.pw --samples 5000 --seed 7
+  portwise spread circuits/hydrophone_cs_stage.pw --worst --json
+  portwise spread circuits/hydrophone_cs_stage.pw --plot spread.png"""
 
 MAX_SAMPLES = 10_000_000
 

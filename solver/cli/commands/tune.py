@@ -11,8 +11,8 @@ standard values of an IEC 60063 series and what each gives. Exit 1 when no value
 reaches the target."""
 EPILOG = """\
 examples:
-  portwise tune circuits/hydrophone_ce_stage.pw --set Av=40 --vary RE1
-  portwise tune circuits/hydrophone_ce_stage.pw --set Av=40 --vary RE1 --series E96 --json"""
+  portwise tune circuits/mic_preamp.pw --set Av=30 --vary RE1
+  portwise tune circuits/hydrophone_cs_stage.pw --set Av=15 --vary RS --series E12 --json"""
 
 
 def add_arguments(p) -> None:
