@@ -110,6 +110,45 @@ def test_sensitivity_matches_finite_differences_through_the_bias(name, old, new)
     assert row["via"] == ("adjoint" if name == "CE" else "bias point")
 
 
+MOS_TEXT = (Path(__file__).resolve().parent.parent / "circuits" / "hydrophone_cs_stage.pw").read_text()
+PNP = """supply VCC (vcc, gnd) 12 V
+signal VS (in, gnd) 1 mV, rs=600
+capacitor C1 (in, b) 10u
+resistor R1 (b, gnd) 82k
+resistor R2 (vcc, b) 22k
+resistor RE (vcc, e) 1k
+capacitor CE (vcc, e) 100u
+pnp Q1 (c, b, e) beta=120, va=60 V
+resistor RC (c, gnd) 4k7
+load RL (c, gnd) 10k
+"""
+
+
+@pytest.mark.parametrize("text, name, old, new", [
+    (MOS_TEXT, "RD", "resistor RD (vdd, d) 6k8", "resistor RD (vdd, d) {v}"),
+    (MOS_TEXT, "M1.vth", "vth=1.2 V", "vth={v} V"),
+    (MOS_TEXT, "M1.k", "k=5 mA/V^2", "k={v} A/V^2"),
+    (MOS_TEXT, "M1.lambda", "lambda=0.02", "lambda={v}"),
+    (MOS_TEXT, "VDD", "supply VDD (vdd, gnd) 9 V", "supply VDD (vdd, gnd) {v} V"),
+    (PNP, "Q1.beta", "beta=120", "beta={v}"),
+    (PNP, "R2", "resistor R2 (vcc, b) 22k", "resistor R2 (vcc, b) {v}"),
+    (PNP, "Q1.is", "pnp Q1 (c, b, e) beta=120", "pnp Q1 (c, b, e) is={v}, beta=120"),
+])
+def test_exact_bias_point_sensitivity_mos_and_pnp(text, name, old, new):
+    # implicit differentiation of the DC solution against central differences of whole solves
+    at = 1000.0
+    res = solver.sensitivity(solver.loads(text), ["Av", "Rin"], at=at)
+    for q in ("Av", "Rin"):
+        row = _rows(res, q)[name]
+        assert row["via"] == "bias point"
+        x = row["value"]
+        h = 1e-4 * x
+        up = _solve(text.replace(old, new.format(v=repr(x + h))), q, at)
+        dn = _solve(text.replace(old, new.format(v=repr(x - h))), q, at)
+        fd = x * (up - dn) / (2 * h) / res.values[q]
+        assert abs(row["normalized"] - fd) < 1e-6 * max(1.0, abs(fd)) + 1e-9, (q, row, fd)
+
+
 def test_sensitivity_json_shape():
     d = solver.sensitivity(solver.loads(DIVIDER), ["Gv"]).to_dict()
     row = d["quantities"]["Gv"][0]
@@ -158,7 +197,7 @@ def test_batched_newton_equals_scalar_bias():
     ev = Evaluator(c, p, 0.0, ["Av"])
     betas = np.array([60.0, 150.0, 500.0])
     params = {"Q1": dict(c.devices[0].params, beta=betas)}
-    conv, ops = batchbias.solve(c, ev.linear, {}, params, 3, p.bias.nodes)
+    conv, ops, *_ = batchbias.solve(c, ev.linear, {}, params, 3, p.bias.nodes)
     assert conv.all()
     for i, b in enumerate(betas):
         cc = solver.loads(CE_BIASED)

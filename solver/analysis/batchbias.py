@@ -131,6 +131,59 @@ class _Dev:
         e, de = _exp_lin(u[:, 0] / self.nvt)
         return (self.i_s * (e - 1.0))[:, None], (self.i_s * de / self.nvt)[:, None, None]
 
+    def dparam(self, u, key):
+        """d(terminal currents)/d(parameter ``key``) at fixed controls u, shape (n, nt); None when
+        the model has no closed form here (a MOSFET with source and drain exchanged)."""
+        if self.kind == "bjt":
+            s = self.pol
+            vbe_n, vbc_n = s * u[:, 1], s * (u[:, 1] - u[:, 0])
+            ebe, _ = _exp_lin(vbe_n / self.vt)
+            ebc, _ = _exp_lin(vbc_n / self.vt)
+            inv_va = np.where(np.isinf(self.va), 0.0, 1.0 / self.va)
+            early = 1.0 + (vbe_n - vbc_n) * inv_va
+            transport = self.i_s * (ebe - ebc)
+            z = np.zeros_like(ebe)
+            if key == "is":
+                dic = (ebe - ebc) * early - (ebc - 1.0) / self.br
+                dib = (ebe - 1.0) / self.bf + (ebc - 1.0) / self.br
+            elif key == "beta":
+                dic, dib = z, -self.i_s / self.bf ** 2 * (ebe - 1.0)
+            elif key == "beta_r":
+                dic = self.i_s / self.br ** 2 * (ebc - 1.0)
+                dib = -dic
+            elif key == "va":
+                dic, dib = transport * -(vbe_n - vbc_n) * inv_va * inv_va, z
+            else:
+                return None
+            return np.stack([s * dic, s * dib], 1)
+        if self.kind == "mos":
+            s = self.pol
+            vgs_n, vds_n = s * u[:, 1], s * u[:, 0]
+            if np.any(vds_n < 0):
+                return None
+            vov = vgs_n - self.vth
+            clm = 1.0 + self.lam * vds_n
+            sat = (vov > 0) & (vds_n >= vov)
+            if not np.all(sat):
+                return None
+            z = np.zeros_like(vov)
+            if key == "k":
+                d = 0.5 * vov * vov * clm
+            elif key == "vth":  # of the magnitude; a pmos's negative vth= flips the sign
+                d = -self.k * vov * clm * (np.sign(self.p["vth"]) if self.pol < 0 else 1.0)
+            elif key == "lambda":
+                d = 0.5 * self.k * vov * vov * vds_n
+            else:
+                return None
+            return np.stack([s * d, z], 1)
+        if key == "is":
+            e, _ = _exp_lin(u[:, 0] / self.nvt)
+            return (e - 1.0)[:, None]
+        if key == "n":
+            e, de = _exp_lin(u[:, 0] / self.nvt)
+            return (-self.i_s * de * u[:, 0] / (self.n * self.nvt))[:, None]
+        return None
+
     def _nmos(self, vgs, vds):
         """dm._nmos over arrays: (id, gm, gds, saturated, vov)."""
         fwd = vds >= 0
@@ -215,8 +268,9 @@ def solve(c, linear, values: dict, dev_params: dict, n: int, start: dict[str, fl
 
     Returns
     -------
-    (converged, {device name: (amplifying, |I|, vov)})
-        ``converged`` a boolean array; the device arrays are valid where it is true.
+    (converged, {device name: (amplifying, |I|, vov)}, x, stamper, devices)
+        ``converged`` a boolean array; the device arrays are valid where it is true; x the
+        solution vectors (n, size) in the stamper's numbering; the devices as Newton saw them.
     """
     st = BatchStamper(linear, c.ground, values, n).stamp_all()
     G, b0 = st.matrix(0, float), st.rhs_stack(float)
@@ -261,7 +315,7 @@ def solve(c, linear, values: dict, dev_params: dict, n: int, start: dict[str, fl
     out = {}
     for d, u in zip(devs, u_all):
         out[d.dev.name] = d.operating(u)
-    return done, out
+    return done, out, x_all, st, devs
 
 
 def small_signal(dev, params: dict, current=None, vov=None) -> dict:

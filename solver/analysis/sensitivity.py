@@ -14,12 +14,18 @@ elements' own stamps evaluated with dual numbers (:class:`solver.engine.batch.Du
 so there is no second definition of any stamp. Complex at the analysis frequency.
 
 For a circuit whose devices are biased from the supplies, a DC parameter (a bias resistor,
-a supply, a device's β, V_A, I_S, k, V_th...) also moves the operating point, and with it
-gm, rπ and ro: its sensitivity is taken through the bias solve, by a central difference of
-the whole evaluation (bias point and port quantity, :mod:`solver.analysis.variation`) with a
-relative step of 1e-5 (truncation error of order 1e-10 relative). Those rows say
-``"via": "bias point"``; the rows of the small-signal parameters at the fixed bias point
-(``Q1.gm`` as derive names it) and of capacitors and inductors say ``"via": "adjoint"``.
+a supply, a device's β, V_A, I_S, k, V_th, λ...) also moves the operating point, and with it
+gm, rπ and ro: its sensitivity is taken through the bias point exactly, by implicit
+differentiation of the DC solution (one solve with the Newton Jacobian per parameter,
+:mod:`solver.analysis.biassens`) chained with the adjoint gradients of the small-signal
+values. Those rows say ``"via": "bias point"``. A parameter that method does not cover (a
+MOSFET outside saturation under --force) is taken by a central difference of the whole
+evaluation (:mod:`solver.analysis.variation`, relative step 1e-5, truncation error of order
+1e-10 relative) and says ``"via": "bias point (central difference)"``. A device given by its
+operating point (``ic=``, ``beta=``, ``va=``) has those parameters by the same central
+difference (``"via": "device parameter"``: ``Q1.ic`` moves gm, rπ and ro together); the rows
+of the small-signal values at the fixed bias point (``Q1.gm`` as derive names it) and of
+capacitors and inductors say ``"via": "adjoint"``.
 """
 from __future__ import annotations
 
@@ -149,6 +155,15 @@ def adjoint(c: Circuit, m: sc.Measurement, s: complex, params: dict[str, str]):
     return q, grads
 
 
+def dc_view(c: Circuit) -> list:
+    """The DC view's linear elements with the floating-node ties, as the bias solve builds them."""
+    from solver.analysis import bias as B
+    from solver.circuit.views import dc_elements
+    linear = dc_elements(c)
+    ties, _ = B.floating_ties(c, linear)
+    return linear + ties
+
+
 def dc_knobs(c: Circuit) -> list[Knob]:
     """The parameters that move the bias point (for a circuit biased from its supplies)."""
     from solver.analysis.variation import knob
@@ -243,26 +258,44 @@ def sensitivity(circuit: Circuit, quantities=None, at: float | None = None, forc
     through = dc_knobs(c) if biased else []
     through += [k for k in device_knobs(c) if k.name not in {t.name for t in through}]
     through_names = {k.name for k in through}
-    values, out = {}, {}
+    values, out, all_grads = {}, {}, {}
     for q in qs:
         m = sc.chosen(bc, q, singular, solves.base)
-        params = {e.name: e.symbol for e in m.config.elements if e.symbol and e.symbol not in through_names}
+        params = {e.name: e.symbol for e in m.config.elements if e.symbol}
         try:
             val, grads = adjoint(bc, m, s, params)
         except SingularSystem:
             raise p.fail([Diagnostic("error", None, f"the circuit {m.config.description} is singular")]) from None
-        values[q] = val
+        values[q], all_grads[q] = val, grads
         xs = {e.symbol: e.value for e in m.config.elements if e.symbol}
         finite = val != 0 and np.isfinite(abs(val))
-        rows = [{"parameter": name, "value": float(np.real(xs[name])),
-                 "normalized": complex(xs[name] * g / val) if finite else complex(math.nan), "via": "adjoint"}
-                for name, g in grads.items()]
-        out[q] = rows
-    if through:
+        out[q] = [{"parameter": name, "value": float(np.real(xs[name])),
+                   "normalized": complex(xs[name] * g / val) if finite else complex(math.nan), "via": "adjoint"}
+                  for name, g in grads.items() if name not in through_names]
+    chains = {}
+    if biased and through:
+        from solver.analysis.biassens import bias_chains
+        linear = dc_view(c)
+        try:
+            chains = bias_chains(c, through, linear, p.bias.nodes)
+        except Exception:  # noqa: BLE001 - any surprise: the central differences below take every knob
+            chains = {}
+    from solver.analysis.biassens import combine
+    rest = [k for k in through if k.name not in chains]
+    for q in qs:
+        v = values[q]
+        finite = v != 0 and np.isfinite(abs(v))
+        for k in through:
+            if k.name in chains:
+                dq = combine(chains[k.name], all_grads[q])
+                sn = complex(k.nominal * dq / v) if finite else complex(math.nan)
+                out[q].append({"parameter": k.name, "value": float(k.nominal), "normalized": sn,
+                               "via": "bias point"})
+    if rest:
         ev = Evaluator(c, p, f, qs)
-        n = 2 * len(through)
+        n = 2 * len(rest)
         settings = {}
-        for j, k in enumerate(through):
+        for j, k in enumerate(rest):
             h = STEP * abs(k.nominal) or STEP
             arr = np.full(n, k.nominal)
             arr[2 * j] -= h
@@ -271,13 +304,13 @@ def sensitivity(circuit: Circuit, quantities=None, at: float | None = None, forc
         got = ev.run(settings, n)
         for q in qs:
             vals = got.quantities[q]
-            for j, k in enumerate(through):
+            v = values[q]
+            for j, k in enumerate(rest):
                 h = STEP * abs(k.nominal) or STEP
                 ok = got.valid[2 * j] and got.valid[2 * j + 1]
                 dq = (vals[2 * j + 1] - vals[2 * j]) / (2 * h) if ok else complex(math.nan)
-                v = values[q]
                 sn = complex(k.nominal * dq / v) if v != 0 and np.isfinite(abs(v)) else complex(math.nan)
-                via = "bias point" if biased else "device parameter"
+                via = "bias point (central difference)" if biased else "device parameter"
                 out[q].append({"parameter": k.name, "value": float(k.nominal), "normalized": sn, "via": via})
     for q in qs:
         out[q].sort(key=lambda r: (-abs(r["normalized"]) if np.isfinite(abs(r["normalized"])) else 1.0,

@@ -383,7 +383,7 @@ class Evaluator:
 
     def _bias(self, values, dev_params, n):
         start = self.bias.nodes if self.bias is not None else {}
-        conv, ops = batchbias.solve(self.src, self.linear, values, dev_params, n, start)
+        conv, ops, *_ = batchbias.solve(self.src, self.linear, values, dev_params, n, start)
         if not np.all(conv):  # the one-at-a-time solve, with gmin and source stepping
             for i in np.flatnonzero(~conv):
                 got = self._one_bias(values, dev_params, i)
