@@ -184,3 +184,49 @@ def _dss(d, u, i0, di, du, k):
     vt = float(d.vt)
     dn = 1.0 if mine and k.key == "n" else 0.0
     return {"rd": dn * vt / cur - n * vt * dcur / cur ** 2}
+
+
+def op_chains(c, knobs) -> dict:
+    """Chains (as :func:`bias_chains`) of the parameters of devices given by their operating
+    point: the bias form's small-signal parameters differentiated in ``ic=``, ``beta=``,
+    ``va=`` (BJT) and ``id=``, ``vov=``, ``lambda=`` (MOSFET). A knob not covered is left out."""
+    from solver.circuit.devices import thermal_voltage
+    out = {}
+    for k in knobs:
+        if k.kind != "device":
+            continue
+        dev = c.device(k.target)
+        if dev is None or needs_bias(dev):
+            continue
+        p, ss, key, n = dev.params, dev.ss, k.key, dev.name
+        chain = {}
+        if dev.is_bjt and "ic" in p and "rpi" not in p:
+            vt = thermal_voltage(p.get("temp", 300.0))
+            ic, gm, beta, alpha = abs(p["ic"]), ss["gm"], ss["beta"], ss["alpha"]
+            sign = math.copysign(1.0, p["ic"])
+            if key == "ic":
+                dgm = sign / vt
+                chain = {"gm": dgm, "rpi": -beta * dgm / gm ** 2, "re": -alpha * dgm / gm ** 2}
+                if "va" in p and "ro" not in p and math.isfinite(p["va"]):
+                    chain["ro"] = -p["va"] * sign / ic ** 2
+                if "ft" in p:
+                    chain["cpi"] = dgm / (2 * math.pi * p["ft"])
+            elif key == "beta":
+                chain = {"rpi": 1.0 / gm, "alpha": 1.0 / (beta + 1) ** 2, "re": 1.0 / ((beta + 1) ** 2 * gm)}
+            elif key == "va" and "ro" not in p:
+                chain = {"ro": 1.0 / ic}
+        elif dev.is_mos and "id" in p and "vov" in p:
+            i_d, vov = abs(p["id"]), p["vov"]
+            sign = math.copysign(1.0, p["id"])
+            lam = p.get("lambda", 0.0)
+            if key == "id":
+                chain = {"gm": 2 * sign / vov}
+                if lam > 0 and "ro" not in p:
+                    chain["ro"] = -sign / (lam * i_d ** 2)
+            elif key == "vov":
+                chain = {"gm": -2 * i_d / vov ** 2}
+            elif key == "lambda" and lam > 0 and "ro" not in p:
+                chain = {"ro": -1.0 / (lam ** 2 * i_d)}
+        if chain:
+            out[k.name] = (None, {f"{n}.{s}": v for s, v in chain.items()})
+    return out

@@ -22,8 +22,9 @@ values. Those rows say ``"via": "bias point"``. A parameter that method does not
 MOSFET outside saturation under --force) is taken by a central difference of the whole
 evaluation (:mod:`solver.analysis.variation`, relative step 1e-5, truncation error of order
 1e-10 relative) and says ``"via": "bias point (central difference)"``. A device given by its
-operating point (``ic=``, ``beta=``, ``va=``) has those parameters by the same central
-difference (``"via": "device parameter"``: ``Q1.ic`` moves gm, rπ and ro together); the rows
+operating point (``ic=``, ``beta=``, ``va=``; ``id=``, ``vov=``, ``lambda=``) has those
+parameters through the bias form's formulas differentiated in closed form (``"via": "device
+parameter"``: ``Q1.ic`` moves gm, rπ and ro together); the rows
 of the small-signal values at the fixed bias point (``Q1.gm`` as derive names it) and of
 capacitors and inductors say ``"via": "adjoint"``.
 """
@@ -272,14 +273,15 @@ def sensitivity(circuit: Circuit, quantities=None, at: float | None = None, forc
         out[q] = [{"parameter": name, "value": float(np.real(xs[name])),
                    "normalized": complex(xs[name] * g / val) if finite else complex(math.nan), "via": "adjoint"}
                   for name, g in grads.items() if name not in through_names]
-    chains = {}
+    from solver.analysis.biassens import op_chains
+    chains = op_chains(c, through)
     if biased and through:
         from solver.analysis.biassens import bias_chains
         linear = dc_view(c)
         try:
-            chains = bias_chains(c, through, linear, p.bias.nodes)
-        except Exception:  # noqa: BLE001 - any surprise: the central differences below take every knob
-            chains = {}
+            chains.update(bias_chains(c, [k for k in through if k.name not in chains], linear, p.bias.nodes))
+        except Exception:  # noqa: BLE001 - any surprise: the central differences below take the rest
+            pass
     from solver.analysis.biassens import combine
     rest = [k for k in through if k.name not in chains]
     for q in qs:
@@ -290,7 +292,7 @@ def sensitivity(circuit: Circuit, quantities=None, at: float | None = None, forc
                 dq = combine(chains[k.name], all_grads[q])
                 sn = complex(k.nominal * dq / v) if finite else complex(math.nan)
                 out[q].append({"parameter": k.name, "value": float(k.nominal), "normalized": sn,
-                               "via": "bias point"})
+                               "via": "bias point" if biased else "device parameter"})
     if rest:
         ev = Evaluator(c, p, f, qs)
         n = 2 * len(rest)
@@ -310,7 +312,7 @@ def sensitivity(circuit: Circuit, quantities=None, at: float | None = None, forc
                 ok = got.valid[2 * j] and got.valid[2 * j + 1]
                 dq = (vals[2 * j + 1] - vals[2 * j]) / (2 * h) if ok else complex(math.nan)
                 sn = complex(k.nominal * dq / v) if v != 0 and np.isfinite(abs(v)) else complex(math.nan)
-                via = "bias point (central difference)" if biased else "device parameter"
+                via = "bias point (central difference)" if biased else "device parameter (central difference)"
                 out[q].append({"parameter": k.name, "value": float(k.nominal), "normalized": sn, "via": via})
     for q in qs:
         out[q].sort(key=lambda r: (-abs(r["normalized"]) if np.isfinite(abs(r["normalized"])) else 1.0,
