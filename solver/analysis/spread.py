@@ -31,9 +31,9 @@ import numpy as np
 
 from solver.analysis import pipeline
 from solver.analysis import scenarios as sc
-from solver.analysis.variation import Evaluator, Outcome, spread_knob
+from solver.analysis.variation import Evaluator, spread_knob
 from solver.circuit.model import Circuit
-from solver.diagnostics import Diagnostic, InputError, Loc, error
+from solver.diagnostics import Diagnostic, Loc, error
 
 #: the two-sided 95 % normal quantile (scipy.stats.norm.ppf(0.975); the tests check it)
 Z95 = 1.959963984540054
