@@ -425,10 +425,21 @@ class Evaluator:
     def _ports(self, values: dict, n: int) -> dict[str, np.ndarray]:
         """Every quantity's read-outs; configurations whose matrices are the same (the signal
         driven and the output test without the load: a source's value only enters b) are
-        factorised once and solved for all their right-hand sides together."""
+        factorised once and solved for all their right-hand sides together, and the loaded
+        drive follows from the unloaded one by a rank-one update."""
         configs = {}
         for m in self.measurements.values():
             configs.setdefault(m.config.key, m.config)
+        # the loaded drive is the unloaded one plus the load: a rank-one change of the matrix,
+        # solved from the unloaded factorisation by the Sherman-Morrison formula
+        # (x_L = x - g (u'x) / (1 + g u'z) z, z = A^-1 u, u = e_p - e_n, g = 1/R_L)
+        rank_one = None
+        loaded, unloaded = configs.get(("signal", True)), configs.get(("signal", False))
+        if loaded is not None and unloaded is not None and loaded.elements[:-1] == unloaded.elements:
+            from solver.engine.mna import Stamper
+            probe = Stamper(list(loaded.elements), self.circuit.ground)
+            rank_one = (probe, loaded.elements[-1])
+            del configs[("signal", True)]
         groups: dict = {}
         for key, cfg in configs.items():
             shape = tuple(sorted(e.name for e in cfg.elements if not isinstance(e, CurrentSource)))
@@ -438,7 +449,19 @@ class Evaluator:
             sts = [BatchStamper(list(cfg.elements), self.circuit.ground, values, n).stamp_all()
                    for _, cfg in members]
             A = sts[0].matrix(self.s)
-            bs = np.stack([st.rhs_stack() for st in sts], 2)
+            cols = [st.rhs_stack() for st in sts]
+            keys = [key for key, _ in members]
+            extra = rank_one is not None and ("signal", False) in keys and rank_one[0].nodes == sts[0].nodes \
+                and rank_one[0].branches == sts[0].branches
+            if extra:
+                u = np.zeros((n, sts[0].size), complex)
+                a, b = (sts[0].node(x) for x in rank_one[1].nodes)
+                if a is not None:
+                    u[:, a] = 1.0
+                if b is not None:
+                    u[:, b] -= 1.0
+                cols.append(u)
+            bs = np.stack(cols, 2)
             with np.errstate(all="ignore"):
                 try:
                     xs = np.linalg.solve(A, bs)
@@ -446,6 +469,21 @@ class Evaluator:
                     xs = np.stack([solve_stacked(A, bs[:, :, j]) for j in range(bs.shape[2])], 2)
             for j, ((key, _), st) in enumerate(zip(members, sts)):
                 solved[key] = (st, xs[:, :, j])
+            if extra:
+                st0, x0 = solved[("signal", False)]
+                z = xs[:, :, -1]
+                g = 1.0 / np.asarray(values.get(rank_one[1].name, rank_one[1].value))
+
+                def across(v):
+                    return (v[:, a] if a is not None else 0.0) - (v[:, b] if b is not None else 0.0)
+                with np.errstate(all="ignore"):
+                    coef = g * across(x0) / (1.0 + g * across(z))
+                solved[("signal", True)] = (rank_one[0], x0 - coef[:, None] * z)
+                rank_one = None
+        if rank_one is not None:  # (no unloaded drive to update from: solve the loaded one itself)
+            cfg = loaded
+            st = BatchStamper(list(cfg.elements), self.circuit.ground, values, n).stamp_all()
+            solved[("signal", True)] = (st, solve_stacked(st.matrix(self.s), st.rhs_stack()))
         out = {}
         for q, m in self.measurements.items():
             st, x = solved[m.config.key]
