@@ -11,10 +11,11 @@ __version__ = "0.1.0"
 __all__ = ["load", "loads", "solve", "Result", "InputError"]
 __all__ += ["loop"]  # feedback: return ratio, asymptotic gain, Blackman, margins
 __all__ += ["sweep", "derive", "report"]  # frequency response, symbolic forms, the HTML design report
+__all__ += ["sensitivity", "spread", "tune"]  # tolerances, Monte Carlo, part values
 
 
 def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
-    if name in ("load", "loads", "solve", "Result"):
+    if name in ("load", "loads", "solve", "Result", "sensitivity", "spread", "tune"):
         from solver import api
         return getattr(api, name)
     if name == "InputError":

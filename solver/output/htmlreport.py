@@ -564,11 +564,16 @@ def _generic(res, data: dict) -> str:
     return t.html()
 
 
+def si(x: float, digits: int = 4) -> str:
+    """A plain number with an SI prefix and no unit (``si(2.2e6) == '2.2 M'``), for unitless columns."""
+    return eng(float(x), "_", digits)[:-1].rstrip()
+
+
 def _cell(v, unit: str = ""):
     if isinstance(v, bool) or v is None:
         return "" if v is None else ("yes" if v else "no")
     if isinstance(v, (int, float)):
-        return Num(float(v), unit)
+        return Num(float(v), unit) if unit else Num(float(v), "", text=si(v))
     if isinstance(v, dict) and "re" in v:
         return _znum(complex(float(v["re"]), float(v["im"])))
     return str(v)
@@ -613,15 +618,27 @@ def noise_html(res, data: dict) -> str:
     return "".join(out)
 
 
+#: the quantities whose sensitivities the report shows (the JSON keeps every one)
+SENSITIVITY_SHOWN = ("Gv", "Zt", "Av", "Rin", "Rout")
+
+
 def sensitivity_html(res, data: dict) -> str:
-    """The ten largest normalised sensitivities (x/Q)·dQ/dx of each quantity (``portwise sensitivity``)."""
+    """The ten largest normalised sensitivities (x/Q)·dQ/dx of the main quantities (``portwise sensitivity``)."""
     f = data.get("frequency_hz")
-    out = [para("Normalised sensitivities (x/Q)·∂Q/∂x, the ten largest of each quantity"
-                + (f" at {'DC' if not f else eng(f, 'Hz')}." if f is not None else "."))]
-    for q, rows in data.get("quantities", {}).items():
-        t = Table(["parameter", "value", "sensitivity", "via"])
-        for r in rows[:10]:
-            t.add(r["parameter"], _cell(r.get("value")), _cell(r.get("normalized")), r.get("via", ""))
+    qs = data.get("quantities", {})
+    shown = [q for q in SENSITIVITY_SHOWN if q in qs] or list(qs)
+    out = [para("Normalised sensitivities S = (x/Q)·∂Q/∂x (a 1 % rise in x moves Q by S %), the ten largest"
+                + (f", at {'DC' if not f else eng(f, 'Hz')}" if f is not None else "")
+                + (f"; {', '.join(q for q in qs if q not in shown)} in the JSON" if len(shown) < len(qs) else "")
+                + ".")]
+    for q in shown:
+        t = Table(["parameter", "value", "S (real part)", "S (imaginary part)", "via"])
+        for r in qs[q][:10]:
+            v, z = r.get("value"), r.get("normalized") or {}
+            t.add(r["parameter"], Num(float(v), "", text=si(v)) if isinstance(v, (int, float)) else "",
+                  Num(float(z["re"]), "", text=f"{float(z['re']):.4g}") if "re" in z else "",
+                  Num(float(z["im"]), "", text=f"{float(z['im']):.3g}") if "im" in z else "",
+                  r.get("via", ""))
         out.append(f"<h3>{escape(q)}</h3>" + t.html())
     return "".join(out)
 
@@ -635,13 +652,16 @@ def spread_html(res, data: dict) -> str:
     keys = []
     for st in stats.values():
         keys += [k for k in st if k not in keys]
+    from solver.analysis.scenarios import UNITS
     if stats:
         t = Table(["quantity"] + keys)
         for q, st in stats.items():
-            t.add(q, *[_cell(st.get(k)) for k in keys])
-        out.append(t.html())
+            u = _unit(UNITS.get(q, ""))
+            t.add(q, *[_cell(st.get(k), "" if k in ("std_rel", "cv") else u) for k in keys])
+        out.append("<p class=\"note\">Magnitudes of the port quantities over the samples.</p>" + t.html())
     for q, arr in (getattr(res, "magnitudes", None) or {}).items():
-        out.append(f"<h3>|{escape(q)}|</h3>" + histogram_svg(arr, xlabel=f"|{q}|", label=f"histogram of |{q}|"))
+        u = _unit(UNITS.get(q, ""))
+        out.append(f"<h3>|{escape(q)}|</h3>" + histogram_svg(arr, xlabel=f"|{q}| ({u})", label=f"histogram of |{q}|"))
     ys = data.get("yield", [])
     if ys:
         cols = []

@@ -240,7 +240,8 @@ def histogram_svg(values, bins: int = 30, xlabel: str = "", limits: tuple | None
         body.append(f'<text x="{LEFT - 5}" y="{y + 4:.1f}" text-anchor="end">{_fmt(t)}</text>')
     for t in ticks:
         x = float(ax.px(t))
-        body.append(f'<text x="{x:.1f}" y="{10 + PANEL + 14}" text-anchor="middle">{escape(eng(t, "", 3))}</text>')
+        label = eng(t, "_", 3)[:-1].rstrip()  # an SI prefix, the unit is on the axis label
+        body.append(f'<text x="{x:.1f}" y="{10 + PANEL + 14}" text-anchor="middle">{escape(label)}</text>')
     for n, e0, e1 in zip(counts, edges[:-1], edges[1:]):
         if n:
             x0, x1 = float(ax.px(e0)), float(ax.px(e1))
