@@ -580,7 +580,9 @@ class _Search:
         if len(exps) == 1:
             return self._mono(exps[0], coeffs[0])
         k = _content(coeffs)
-        if sum(1 for c in coeffs if c < 0) * 2 > len(coeffs):
+        negative = sum(1 for c in coeffs if c < 0) * 2
+        if negative > len(coeffs) or (negative == len(coeffs) and any(
+                c < 0 and not any(m) for m, c in zip(exps, coeffs))):  # 1 - alpha, not alpha - 1
             k = -k
         low = tuple(min(m[i] for m in exps) for i in range(self.P.n))
         if k != 1 or any(low):
@@ -1075,16 +1077,15 @@ def write_form(num: dict, den: dict, gens, *, expanded: bool = False, devices: b
         S = _Search(_Poly(g), 1, max_terms, share, _with_devices(dims, g))
         share[0] = max(1, total // (3 * len(variants)))
         quick.append((S.ratio(S.P.from_dict(n), S.P.from_dict(d)), v))
-    best, chosen = quick[0]
-    for node, v in quick[1:]:
-        if _better(node, best):
-            best, chosen = node, v
-    if beam > 1:
-        _, n, d, g = chosen
-        S = _Search(_Poly(g), beam, max_terms, [total - total // 3], _with_devices(dims, g))
-        node = S.ratio(S.P.from_dict(n), S.P.from_dict(d))
-        if _better(node, best):
-            best = node
+    ranked = sorted(range(len(quick)), key=lambda j: (_score(quick[j][0]), j))
+    best = quick[ranked[0]][0]
+    if beam > 1:  # the rest of the work on the two most promising variants
+        for j in ranked[:2]:
+            _, n, d, g = quick[j][1]
+            S = _Search(_Poly(g), beam, max_terms, [(total - total // 3) // 2], _with_devices(dims, g))
+            node = S.ratio(S.P.from_dict(n), S.P.from_dict(d))
+            if _better(node, best):
+                best = node
     return finish(best, "design", gens, num, den)
 
 
