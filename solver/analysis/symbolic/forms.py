@@ -1111,19 +1111,23 @@ def compact_domain(ring):
         if isinstance(p, (int, Fraction)):
             return num(p)
         exps, coeffs = ring.terms(p)
-        terms = []
-        for m, c in sorted(zip(exps, coeffs), key=lambda t: tuple(-e for e in t[0])):
+        groups: dict = {}  # by power of s: 1/RC + 1/Q1.ro + s*(Q1.cpi + Q1.cmu)
+        for m, c in sorted(zip(exps, coeffs), key=lambda t: (t[1] < 0, tuple(-e for e in t[0]))):
             e: dict = {}
             for (g, sg), k in zip(plain, m):
                 if k:
                     e[g] = e.get(g, 0) + sg * k
-            top = [power(sym(g), k) for g, k in e.items() if k > 0]
-            bottom = [power(sym(g), -k) for g, k in e.items() if k < 0]
-            a = mul(num(abs(c.numerator)), *top) if top else num(abs(c.numerator))
-            if c.denominator != 1:
-                bottom.insert(0, num(c.denominator))
-            t = div(a, mul(*bottom)) if bottom else a
-            terms.append(neg(t) if c < 0 else t)
+            groups.setdefault(e.pop(S_NAME, 0), []).append((e, c))
+        terms = []
+        for ks in sorted(groups):
+            part = [_entry_term(e, c) for e, c in groups[ks]]
+            if ks == 0:
+                terms.extend(part)
+            else:
+                inner = add(*part)
+                sign = inner.op == "neg"
+                t = mul(power(sym(S_NAME), ks), inner.args[0] if sign else inner)
+                terms.append(neg(t) if sign else t)
         key = tuple(text(t) for t in terms)
         hit = cache.get(key)
         if hit is None:
@@ -1131,6 +1135,17 @@ def compact_domain(ring):
         return hit
 
     return conv, ZERO, ONE
+
+
+def _entry_term(e: dict, c: Fraction) -> Node:
+    """One term of a matrix entry: c * product of symbols^k (negative k below the line)."""
+    top = [power(sym(g), k) for g, k in e.items() if k > 0]
+    bottom = [power(sym(g), -k) for g, k in e.items() if k < 0]
+    a = mul(num(abs(c.numerator)), *top) if top else num(abs(c.numerator))
+    if c.denominator != 1:
+        bottom.insert(0, num(c.denominator))
+    t = div(a, mul(*bottom)) if bottom else a
+    return neg(t) if c < 0 else t
 
 
 def expanded_terms_bound(root: Node) -> int:
