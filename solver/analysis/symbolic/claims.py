@@ -435,10 +435,10 @@ MAX_SHOWN = 200
 
 def _shown(q, dims) -> str:
     """The exact quantity in design-oriented form (forms.form_of), or "" when longer than MAX_SHOWN."""
-    from solver.analysis.symbolic.forms import form_of
-    if len(q.num) + len(q.den) > 4 * MAX_SHOWN:  # no short form hides in a ratio this long
+    from solver.analysis.symbolic.forms import DESIGN_TERMS, form_of
+    if len(q.num) + len(q.den) > DESIGN_TERMS:  # no short form hides in a ratio this long
         return ""
-    f = form_of(q, dims=dims)
+    f = form_of(q, dims=dims, seconds=0.5)
     return f.text if len(f.text) <= MAX_SHOWN and not f.where else ""
 
 
