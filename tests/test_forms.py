@@ -305,3 +305,15 @@ def test_bundled_examples_print_exactly(example):
         f = F.form_of(q, dims=dims, seconds=0.3)
         B = Back(q.gens)
         assert identical(B.form(f), B.exact(q)), (name, f.text)
+
+
+def test_without_python_flint_the_flat_ratio_is_printed(monkeypatch):
+    # python-flint is optional: without it the printer writes the exact expanded ratio
+    import solver.engine.symbolic.ring as ring
+    monkeypatch.setattr(ring, "have_flint", lambda: False)
+    c = solver.loads(FOLLOWER)
+    q = symbolic_port_quantities(c, which=["Rout"])["Rout"]
+    f = F.form_of(q)
+    assert f.kind == "expanded" and "||" not in f.text
+    B = Back(q.gens)
+    assert identical(B.form(f), B.exact(q))
