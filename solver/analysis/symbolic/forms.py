@@ -666,9 +666,22 @@ class _Search:
             self.work[0] = 0
             return best
         self.work[0] -= 1
-        if len(D) == 1:
+        if len(D) == 1:  # a sum over a monomial, e.g. (RE + RL)/(RE*RL) = 1/(RE || RL)
+            if len(N) > 1:
+                for cand in [recip(self.ratio(D, N))] + self._products(N, D):
+                    if _better(cand, best):
+                        best = cand
             return best
         for cand in self._products(N, D):
+            if _better(cand, best):
+                best = cand
+        rest = D - N
+        if rest != 0 and len(rest) < len(D):  # a divider: N/(N + W) = 1/(1 + W/N)
+            w = self.ratio(rest, N)
+            cand = div(ONE, add(ONE, w))
+            if w.op == "div" and w.args[1].cost <= 2:  # onto a short branch: Z/(Z + W')
+                z = w.args[1]
+                cand = div(z, add(z, w.args[0]))
             if _better(cand, best):
                 best = cand
         scored = []
