@@ -1038,11 +1038,9 @@ def finish(root: Node, kind: str, gens, num=None, den=None, always_where: bool =
 
 # --- entry points ----------------------------------------------------------------------------------
 def _used_gens(num, den, gens):
-    used = set()
-    for d in (num, den):
-        for m in d:
-            used.update(i for i, e in enumerate(m) if e)
-    return [g for i, g in enumerate(gens) if i in used]
+    """The generators that occur (column by column: a 100,000-term ratio is quick)."""
+    cols = list(zip(*(list(num) + list(den)))) if (num or den) else []
+    return [g for g, col in zip(gens, cols) if any(col)]
 
 
 def expanded_node(num: dict, den: dict, gens) -> Node:
