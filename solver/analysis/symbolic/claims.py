@@ -426,18 +426,20 @@ def check_claims(c: Circuit, frequency_hz: float) -> list[Verdict]:
         holds = is_exact if cl.kind == "exact" else rel <= cl.tolerance
         when = [] if is_exact else exact_when(exact_expr, claimed)
         out.append(Verdict(cl.line, cl.quantity, cl.kind, claim_text(c, cl), holds, is_exact, value, cv, rel,
-                           cl.tolerance, when, _shown(exact_expr, dims)))
+                           cl.tolerance, when, _shown(sym[cl.quantity], dims)))
     return out
 
 
 MAX_SHOWN = 200
 
 
-def _shown(expr, dims) -> str:
-    """The exact quantity as plain text with ||, or "" when longer than MAX_SHOWN characters."""
-    from solver.analysis.symbolic.printing import plain, recognize_parallel
-    text = plain(recognize_parallel(expr, dims))
-    return text if len(text) <= MAX_SHOWN else ""
+def _shown(q, dims) -> str:
+    """The exact quantity in design-oriented form (forms.form_of), or "" when longer than MAX_SHOWN."""
+    from solver.analysis.symbolic.forms import DESIGN_TERMS, form_of
+    if len(q.num) + len(q.den) > DESIGN_TERMS:  # no short form hides in a ratio this long
+        return ""
+    f = form_of(q, dims=dims, seconds=0.5)
+    return f.text if len(f.text) <= MAX_SHOWN and not f.where else ""
 
 
 def claim_text(c: Circuit, cl) -> str:
