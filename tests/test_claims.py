@@ -109,12 +109,12 @@ def test_identical_and_exact_when_primitives():
     from solver.engine.symbolic.ring import Ring
     ring = Ring(["s", "RA", "RB"])
     one = Fraction(1)
-    par = L.Rat({(0, 1, 1): one}, {(0, 1, 0): one, (0, 0, 1): one})
-    ra = L.Rat({(0, 1, 0): one}, {(0, 0, 0): one})
+    par = L.from_dicts(ring, {(0, 1, 1): one}, {(0, 1, 0): one, (0, 0, 1): one})
+    ra = L.from_dicts(ring, {(0, 1, 0): one}, {(0, 0, 0): one})
     moves = [L.Move("RB -> oo", "RB → ∞", frozenset({2}), "ray", [(2, 1)]),
              L.Move("RB -> 0", "RB → 0", frozenset({2}), "ray", [(2, -1)])]
-    assert L.search(ring, par, ra, moves).keys == ["RB -> oo"]
-    assert not L.identical(ring, par, ra) and L.identical(ring, par, par)
+    assert L.search(par, ra, moves).keys == ["RB -> oo"]
+    assert not L.identical(par, ra) and L.identical(par, par)
     assert identical(sympy.sqrt(a) * sympy.sqrt(a), a)
 
 

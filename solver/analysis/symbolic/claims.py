@@ -208,7 +208,7 @@ def to_rational(e: ex.Expr, c: Circuit, ring, scope=None, symbols: set[str] | No
     if v is _INFINITE:
         raise NotRational("infinity")
     n, d = v
-    return Rat(ring.to_dict(n), ring.to_dict(d))
+    return Rat(n, d, ring)
 
 
 def walk(e: ex.Expr, c: Circuit, A, scope=None, symbols: set[str] | None = None):
@@ -524,9 +524,9 @@ def check_claims(c: Circuit, frequency_hz: float, search_seconds: float | None =
     for cl in c.claims:
         sq = sym[cl.quantity]
         value = nums[cl.quantity]
-        exact = L.from_dicts(sq.num, sq.den)
+        exact = L.from_dicts(ring, sq.num, sq.den)
         try:
-            claimed = to_rational(cl.expr, c, ring) if exact.den else None
+            claimed = to_rational(cl.expr, c, ring) if sq.den else None
         except NotRational:
             claimed = None
         note, found, complete, tried = "", None, True, (0, 0)
@@ -538,16 +538,17 @@ def check_claims(c: Circuit, frequency_hz: float, search_seconds: float | None =
                 complete, note = False, "no limits searched: the claim is not a rational function of the symbols"
         else:
             cv = claimed.value(point)
-            is_exact = L.identical(ring, exact, claimed)
+            is_exact = L.identical(exact, claimed)
             if not is_exact:
                 if cl.quantity not in moves:
                     moves[cl.quantity] = L.designer_moves(c, gens, values, s, exact)
-                found = L.search(ring, exact, claimed, moves[cl.quantity], seconds)
+                found = L.search(exact, claimed, moves[cl.quantity], seconds)
                 complete, note, tried = found.complete, found.note(), (found.tried, found.total)
         rel = _rel(value, cv)
         holds = is_exact if cl.kind == "exact" else rel <= cl.tolerance
         out.append(Verdict(cl.line, cl.quantity, cl.kind, claim_text(c, cl), holds, is_exact, value, cv, rel,
-                           cl.tolerance, found.keys if found else [], _shown(c, sq),
+                           cl.tolerance, found.keys if found else [],
+                           _shown(claimed if is_exact and claimed is not None else sq),
                            found.words if found else [], complete, note, tried))
     return out
 
@@ -613,16 +614,26 @@ def check(c: Circuit, at: float | None = None, force: bool = False, search_secon
 
 
 MAX_SHOWN = 200
-MAX_SHOWN_TERMS = 120  # a longer expanded ratio does not print within MAX_SHOWN characters
+#: the exact quantity is written (forms.write_form) only up to this many expanded terms: a longer
+#: ratio does not print within MAX_SHOWN characters, and the printer's search would cost more than the check
+MAX_SHOWN_TERMS = 40
+SHOWN_WORK = 50  # the printer's work bound for it (forms.write_form ``work``)
 
 
-def _shown(c: Circuit, sq) -> str:
-    """The exact quantity as plain text with ||, or "" when longer than MAX_SHOWN characters."""
-    if sq.nterms > MAX_SHOWN_TERMS or not sq.den:
+def _shown(q) -> str:
+    """The exact quantity in its design-oriented form, or "" when longer than MAX_SHOWN characters.
+
+    ``q`` is a SymbolicQuantity, or an identical claim's own rational function
+    (:class:`~solver.analysis.symbolic.limits.Rat`: the same function, usually far fewer terms).
+    """
+    if q.nterms > MAX_SHOWN_TERMS:
         return ""
-    from solver.analysis.symbolic.ports import scenario_elements
-    from solver.analysis.symbolic.printing import plain, recognize_parallel, symbol_dims
-    text = plain(recognize_parallel(sq.expr(), symbol_dims(scenario_elements(c))))
+    num, den = q.dicts() if hasattr(q, "dicts") else (q.num, q.den)
+    if not num or not den:
+        return ""
+    from solver.analysis.symbolic.forms import write_form
+    f = write_form(num, den, q.gens, work=SHOWN_WORK)
+    text = f.text if not f.where else ""
     return text if len(text) <= MAX_SHOWN else ""
 
 

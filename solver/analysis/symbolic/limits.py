@@ -7,16 +7,17 @@ the load (RL → ∞), the source resistance (rs → 0), the coupling capacitors
 moves for a circuit -- and only those: a move such as rπ → 0 would set β to zero,
 which changes the device rather than idealising it, so it is never offered.
 
-Every quantity here is a ratio of two polynomials kept as {exponent tuple:
-Fraction} dictionaries over the generators ``[s] + circuit symbols`` (the form
-:class:`solver.analysis.symbolic.ports.SymbolicQuantity` gives). A limit along a
+Every quantity here is a ratio of two polynomials of the engine's ring over the
+generators ``[s] + circuit symbols`` (those of
+:class:`solver.analysis.symbolic.ports.SymbolicQuantity`). A limit along a
 ray x_i -> x_i * t^w_i, t -> ∞, keeps the terms of highest weight sum(w_i m_i) in
 numerator and denominator: when the two weights differ the limit is 0 or
 unbounded, otherwise it is the ratio of the two top parts. One symbol to infinity
 is w = +1, to zero w = -1; "gm → ∞ with β = gm·rπ fixed" is w = (+1, -1) on (gm, rπ).
 A T-model α → 1 substitutes α = 1 - ε and sends ε to 0. "The halves match" maps
 each symbol of one half of a symmetric circuit onto its mirror image. All of this
-is exact and costs one pass over the terms (R. Courant, F. John, *Introduction to
+is exact; one symbol's limits stay inside python-flint (derivatives, exact division by the
+symbol, substitution), the others cost one pass over the terms (R. Courant, F. John, *Introduction to
 Calculus and Analysis*, vol. 1, limits of rational functions, from memory).
 
 Identity of two rational functions is tested by cross-multiplying in the engine's
@@ -27,37 +28,50 @@ from __future__ import annotations
 import math
 import time
 from dataclasses import dataclass, field
-from fractions import Fraction
 
-from solver.engine.symbolic.ring import evaluate_dict
 from solver.engine.symbolic.stamper import S_NAME
 
 #: default bounds of the exact-when search (per claim)
-SEARCH_SECONDS = 0.5
+SEARCH_SECONDS = 0.75
 MAX_COMBINATIONS = 2000
 MAX_TERMS = 50_000  # above this many terms in the exact quantity only single moves are tried
 
 _INF, _ZERO = "inf", "zero"  # degenerate limits
 
 
-# --- rational functions as coefficient dictionaries -------------------------------------------------
+# --- rational functions on the engine's ring ------------------------------------------------------
 @dataclass(frozen=True)
 class Rat:
-    """num/den as {exponent tuple: Fraction}; an empty den with a non-empty num is unbounded."""
+    """num/den, two polynomials of one :class:`~solver.engine.symbolic.ring.Ring` (den == 0: unbounded)."""
 
-    num: dict
-    den: dict
+    num: object
+    den: object
+    ring: object
 
     @property
     def nterms(self) -> int:
         return len(self.num) + len(self.den)
 
+    @property
+    def gens(self) -> list[str]:
+        return list(self.ring.names)
+
+    def dicts(self) -> tuple[dict, dict]:
+        """(num, den) as {exponent tuple: Fraction}."""
+        return self.ring.to_dict(self.num), self.ring.to_dict(self.den)
+
     def value(self, point) -> complex:
-        d = evaluate_dict(self.den, point)
-        n = evaluate_dict(self.num, point)
+        """Numeric value at one complex number per generator."""
+        d = self.ring.evaluate(self.den, point)
+        n = self.ring.evaluate(self.num, point)
         if d == 0:
             return complex(math.inf) if n != 0 else complex(math.nan)
         return n / d
+
+
+def from_dicts(ring, num: dict, den: dict) -> Rat:
+    """A Rat from {exponent tuple: Fraction} numerator and denominator over ``ring``'s generators."""
+    return Rat(ring.from_dict(num), ring.from_dict(den), ring)
 
 
 def _top(d: dict, weights):
@@ -79,14 +93,47 @@ def _strip(d: dict, i: int) -> dict:
     return {m[:i] + (0,) + m[i + 1:]: c for m, c in d.items()}
 
 
+def _extreme_flint(p, i: int, up: bool, x):
+    """(weight, coefficient) of the highest (up) or lowest power of generator i in a flint polynomial.
+
+    The highest: the d-th derivative over d!; the lowest: divide by x while x = 0 is a root,
+    then set x = 0. Both stay in C (python-flint), with no pass over the terms in Python.
+    """
+    if up:
+        d = p.degrees()[i]
+        c = p
+        for _ in range(d):
+            c = c.derivative(i)
+        return d, (c / math.factorial(d) if d > 1 else c)
+    k = 0
+    at0 = p.subs({i: 0})
+    while at0 == 0:
+        p = p / x
+        k += 1
+        at0 = p.subs({i: 0})
+    return -k, at0
+
+
 def ray_limit(r: Rat, weights) -> Rat | str:
     """Limit of r as x_i -> x_i t^w_i, t -> oo: a Rat, or "zero" / "inf" when degenerate."""
-    if not r.num:
+    ring = r.ring
+    if r.num == 0:
         return _ZERO
-    if not r.den:
+    if r.den == 0:
         return _INF
-    wn, pn = _top(r.num, weights)
-    wd, pd = _top(r.den, weights)
+    if ring.backend == "flint" and len(weights) == 1 and abs(weights[0][1]) == 1:
+        i, w = weights[0]
+        x = ring.gens[i]
+        wn, pn = _extreme_flint(r.num, i, w > 0, x)
+        wd, pd = _extreme_flint(r.den, i, w > 0, x)
+        if wn > wd:
+            return _INF
+        if wn < wd:
+            return _ZERO
+        return Rat(pn, pd, ring)
+    num, den = r.dicts()
+    wn, pn = _top(num, weights)
+    wd, pd = _top(den, weights)
     if wn > wd:
         return _INF
     if wn < wd:
@@ -94,7 +141,7 @@ def ray_limit(r: Rat, weights) -> Rat | str:
     if len(weights) == 1:
         i = weights[0][0]
         pn, pd = _strip(pn, i), _strip(pd, i)
-    return Rat(pn, pd)
+    return Rat(ring.from_dict(pn), ring.from_dict(pd), ring)
 
 
 def _reflect(d: dict, i: int) -> dict:
@@ -109,13 +156,31 @@ def _reflect(d: dict, i: int) -> dict:
     return {k: v for k, v in out.items() if v}
 
 
+def _compose(r: Rat, images) -> Rat:
+    """Substitute generator i by ``images[i]`` (flint compose)."""
+    return Rat(r.num.compose(*images), r.den.compose(*images), r.ring)
+
+
 def to_one(r: Rat, i: int) -> Rat | str:
     """Limit as x_i -> 1 (x_i = 1 - ε, ε -> 0)."""
-    return ray_limit(Rat(_reflect(r.num, i), _reflect(r.den, i)), [(i, -1)])
+    ring = r.ring
+    if ring.backend == "flint":
+        images = list(ring.gens)
+        images[i] = ring.one - ring.gens[i]
+        return ray_limit(_compose(r, images), [(i, -1)])
+    num, den = r.dicts()
+    return ray_limit(Rat(ring.from_dict(_reflect(num, i)), ring.from_dict(_reflect(den, i)), ring), [(i, -1)])
 
 
 def merge(r: Rat, pairs) -> Rat:
     """Replace generator b by generator a for every (a, b) in pairs (x_b := x_a)."""
+    ring = r.ring
+    if ring.backend == "flint":
+        images = list(ring.gens)
+        for a, b in pairs:
+            images[b] = ring.gens[a]
+        return _compose(r, images)
+
     def one(d):
         out: dict = {}
         for m, c in d.items():
@@ -126,16 +191,15 @@ def merge(r: Rat, pairs) -> Rat:
             t = tuple(k)
             out[t] = out.get(t, 0) + c
         return {k: v for k, v in out.items() if v}
-    return Rat(one(r.num), one(r.den))
+    num, den = r.dicts()
+    return Rat(ring.from_dict(one(num)), ring.from_dict(one(den)), ring)
 
 
-def identical(ring, a: Rat, b: Rat) -> bool:
+def identical(a: Rat, b: Rat) -> bool:
     """a and b are the same rational function: a.num*b.den - b.num*a.den == 0 in the ring."""
-    if not a.den or not b.den:
-        return not a.den and not b.den and bool(a.num) == bool(b.num)
-    lhs = ring.from_dict(a.num) * ring.from_dict(b.den)
-    rhs = ring.from_dict(b.num) * ring.from_dict(a.den)
-    return lhs - rhs == 0
+    if a.den == 0 or b.den == 0:
+        return a.den == 0 and b.den == 0 and (a.num == 0) == (b.num == 0)
+    return a.num * b.den - b.num * a.den == 0
 
 
 # --- the moves ---------------------------------------------------------------------------------------------
@@ -154,7 +218,7 @@ class Move:
     kind: str  # "ray", "one", "merge"
     arg: object
 
-    def apply(self, r: Rat) -> Rat | str:
+    def apply(self, r):
         if isinstance(r, str):
             return r
         if self.kind == "ray":
@@ -289,6 +353,8 @@ def _short_like(exact, i, values, gens, s) -> bool:
         return True
     point = [s] + [values[g] for g in gens[1:]]
     v0 = exact.value(point)
+    if not all(map(math.isfinite, (v0.real, v0.imag))):
+        return True
 
     def dist(lim):
         if isinstance(lim, str):
@@ -399,10 +465,10 @@ class Search:
 
 
 def _good(r) -> bool:
-    return not isinstance(r, str) and bool(r.num) and bool(r.den)
+    return not isinstance(r, str) and r.num != 0 and r.den != 0
 
 
-def search(ring, exact: Rat, claimed: Rat, moves, seconds: float = SEARCH_SECONDS,
+def search(exact: Rat, claimed: Rat, moves, seconds: float = SEARCH_SECONDS,
            max_combinations: int = MAX_COMBINATIONS, max_terms: int = MAX_TERMS) -> Search:
     """The moves, then pairs of moves, under which ``claimed`` becomes identical to ``exact``.
 
@@ -429,7 +495,7 @@ def search(ring, exact: Rat, claimed: Rat, moves, seconds: float = SEARCH_SECOND
             singles.append(None)
             continue
         singles.append((le, lc))
-        if identical(ring, le, lc):
+        if identical(le, lc):
             out.found.append([m])
     if out.found:
         out.total = n  # pairs are not needed
@@ -449,10 +515,6 @@ def search(ring, exact: Rat, claimed: Rat, moves, seconds: float = SEARCH_SECOND
                 return stop(f"time limit {seconds:g} s")
             out.tried += 1
             le, lc = moves[j].apply(singles[i][0]), moves[j].apply(singles[i][1])
-            if _good(le) and _good(lc) and identical(ring, le, lc):
+            if _good(le) and _good(lc) and identical(le, lc):
                 out.found.append([moves[i], moves[j]])
     return out
-
-
-def from_dicts(num: dict, den: dict) -> Rat:
-    return Rat({m: Fraction(c) for m, c in num.items()}, {m: Fraction(c) for m, c in den.items()})
