@@ -520,6 +520,9 @@ def check_claims(c: Circuit, frequency_hz: float, search_seconds: float | None =
     ring = Ring(gens)
     point = [s] + [values[g] for g in gens[1:]]
     moves: dict[str, list] = {}
+    from solver.analysis.symbolic.ports import scenario_elements
+    from solver.analysis.symbolic.printing import symbol_dims
+    dims = symbol_dims(scenario_elements(c))
     out = []
     for cl in c.claims:
         sq = sym[cl.quantity]
@@ -548,7 +551,7 @@ def check_claims(c: Circuit, frequency_hz: float, search_seconds: float | None =
         holds = is_exact if cl.kind == "exact" else rel <= cl.tolerance
         out.append(Verdict(cl.line, cl.quantity, cl.kind, claim_text(c, cl), holds, is_exact, value, cv, rel,
                            cl.tolerance, found.keys if found else [],
-                           _shown(claimed if is_exact and claimed is not None else sq),
+                           _shown(claimed if is_exact and claimed is not None else sq, dims),
                            found.words if found else [], complete, note, tried))
     return out
 
@@ -620,11 +623,12 @@ MAX_SHOWN_TERMS = 40
 SHOWN_WORK = 50  # the printer's work bound for it (forms.write_form ``work``)
 
 
-def _shown(q) -> str:
-    """The exact quantity in its design-oriented form, or "" when longer than MAX_SHOWN characters.
+def _shown(q, dims=None) -> str:
+    """The exact quantity in its design-oriented form (forms.write_form), or "" when longer than MAX_SHOWN.
 
     ``q`` is a SymbolicQuantity, or an identical claim's own rational function
-    (:class:`~solver.analysis.symbolic.limits.Rat`: the same function, usually far fewer terms).
+    (:class:`~solver.analysis.symbolic.limits.Rat`: the same function, usually far fewer terms);
+    ``dims`` the symbols' dimensions (printing.symbol_dims), for the printer's || forms.
     """
     if q.nterms > MAX_SHOWN_TERMS:
         return ""
@@ -632,7 +636,7 @@ def _shown(q) -> str:
     if not num or not den:
         return ""
     from solver.analysis.symbolic.forms import write_form
-    f = write_form(num, den, q.gens, work=SHOWN_WORK)
+    f = write_form(num, den, q.gens, work=SHOWN_WORK, dims=dims)
     text = f.text if not f.where else ""
     return text if len(text) <= MAX_SHOWN else ""
 

@@ -41,6 +41,8 @@ from solver.engine.symbolic.stamper import S_NAME
 
 #: a ratio with more expanded terms than this is not split further (the size bound)
 MAX_SPLIT_TERMS = 240
+#: results with more expanded terms than this are written from shared minors (derive)
+DESIGN_TERMS = 60
 #: flint factorisation is tried up to this many terms
 MAX_FACTOR_TERMS = 400
 #: elements followed at each step of the greedy search
@@ -75,22 +77,23 @@ class Node:
 
     __hash__ = object.__hash__
 
+    # operators keep their operands as they are (a shared minor stays one node, never copied)
     def __add__(self, o):
-        return add(self, _node(o))
+        return _add2(self, _node(o))
 
     __radd__ = __add__
 
     def __sub__(self, o):
-        return add(self, neg(_node(o)))
+        return _add2(self, neg(_node(o)))
 
     def __rsub__(self, o):
-        return add(_node(o), neg(self))
+        return _add2(_node(o), neg(self))
 
     def __neg__(self):
         return neg(self)
 
     def __mul__(self, o):
-        return mul(self, _node(o))
+        return _mul2(self, _node(o))
 
     __rmul__ = __mul__
 
@@ -99,6 +102,29 @@ class Node:
 
     def __repr__(self):
         return f"Node({text(self)!r})"
+
+
+def _add2(a: Node, b: Node) -> Node:
+    if _is_num(a, 0):
+        return b
+    if _is_num(b, 0):
+        return a
+    return Node("add", (a, b), a.cost + b.cost)
+
+
+def _mul2(a: Node, b: Node) -> Node:
+    if _is_num(a, 0) or _is_num(b, 0):
+        return ZERO
+    if _is_num(a, 1):
+        return b
+    if _is_num(b, 1):
+        return a
+    if a.op == "neg" or b.op == "neg":
+        return neg(_mul2(a.args[0] if a.op == "neg" else a, b.args[0] if b.op == "neg" else b)) \
+            if (a.op == "neg") != (b.op == "neg") else _mul2(a.args[0], b.args[0])
+    if b.op == "num" and a.op != "num":
+        a, b = b, a
+    return Node("mul", (a, b), a.cost + b.cost)
 
 
 def _node(x):
@@ -373,22 +399,23 @@ class Form:
     num: dict | None = None
     den: dict | None = None
     gens: list | None = None
+    expanded_terms: int | None = None  # terms of the expanded ratio (a bound when num is None)
 
     def latex(self) -> str:
-        """LaTeX of the expression, then one ``name = ...`` line per where line."""
+        """LaTeX of the expression, then one ``where name = ...`` line per where line (one formula a line)."""
         if self.node is None:
             return self.text
         from solver.analysis.symbolic.printing import latex_name  # noqa: F401  (same names as plain)
         tex_names = {n: _tex_where(nm) for n, nm in self.names.items()}
         head = latex(self.node, tex_names)
         lines = [f"{_tex_where(nm)} = {latex(nd, tex_names)}" for nm, nd in self.defs]
-        return head if not lines else head + "\n" + "\n".join(r"\text{where } " + ln for ln in lines)
+        return head if not lines else head + "\n" + "\n".join(r"\mathrm{where}\ " + ln for ln in lines)
 
     @property
     def symbols(self) -> dict[str, str]:
         """{sympy name: circuit name} of the symbols of the expanded ratio."""
         if self.num is None:
-            return {}
+            return sympy_names(sorted(node_symbols(self.node))) if self.node is not None else {}
         return sympy_names(_used_gens(self.num, self.den, self.gens))
 
     def sympy_text(self, max_terms: int | None = SYMPY_MAX_TERMS) -> str | None:
@@ -401,6 +428,21 @@ class Form:
 
     def where_dicts(self) -> list[dict]:
         return [{"name": n, "expression": e} for n, e in self.where]
+
+
+def node_symbols(root: Node) -> set[str]:
+    """Names of the symbols in a node DAG."""
+    out, seen, stack = set(), set(), [root]
+    while stack:
+        n = stack.pop()
+        if id(n) in seen:
+            continue
+        seen.add(id(n))
+        if n.op == "sym":
+            out.add(n.args[0])
+        elif n.op != "num":
+            stack.extend(n.args[:1] if n.op == "pow" else n.args)
+    return out
 
 
 def _tex_where(name: str) -> str:
@@ -465,8 +507,9 @@ def _content(coeffs) -> Fraction:
 class _Search:
     """The memoised greedy search over bilinear splits (one per variant of the symbols)."""
 
-    def __init__(self, P: _Poly, beam: int = BEAM, max_terms: int = MAX_SPLIT_TERMS, work=None):
+    def __init__(self, P: _Poly, beam: int = BEAM, max_terms: int = MAX_SPLIT_TERMS, work=None, dims=None):
         self.P = P
+        self.dims = [dims.get(n) for n in P.names] if dims else None
         self.work = work if work is not None else [WORK]  # ratios split, shared by the variants
         self.beam = beam
         self.max_terms = max_terms
@@ -622,11 +665,34 @@ class _Search:
             return 0
         return flat_cost(self.P, n) + flat_cost(self.P, d)  # before cancelling: cheap, and a fair guide
 
+    def _dim(self, p):
+        """Dimension (ohm, second exponents) of a homogeneous polynomial, None when unknown."""
+        if self.dims is None or p == 0:
+            return None
+        m = p.monoms()[0]
+        d0 = d1 = 0
+        for e, d in zip(m, self.dims):
+            if e:
+                if d is None:
+                    return None
+                d0 += e * d[0]
+                d1 += e * d[1]
+        return d0, d1
+
+    def _impedance(self, N, D) -> bool:
+        """Whether N/D is an impedance (always True when dimensions are not known)."""
+        dn, dd = self._dim(N), self._dim(D)
+        if dn is None or dd is None:
+            return self.dims is None or dn is None or dd is None
+        return (dn[0] - dd[0], dn[1] - dd[1]) == (1, 0)
+
     def _parts(self, i, A, B, C, D0):
         """Candidate forms for the split on x_i: [(builder, [(num, den), ...])]."""
         x = self.syms[i]
         X = self.P.gens[i]
         out = []
+        # parallel forms only for impedances: x || y of two gains or admittances is not what it reads
+        Z = self._impedance(A * X + B, C * X + D0)
         if C == 0:  # x only in the numerator: a sum (series) form
             if B == 0:
                 out.append((lambda h: mul(x, h), [(A, D0)]))
@@ -636,11 +702,15 @@ class _Search:
             if D0 == 0:
                 out.append((lambda h: div(h, x), [(B, C)]))
             else:
-                out.append((lambda h1, h2: par(h1, h2), [(B, C * X), (B, D0)]))
-                out.append((lambda h0, z: div(h0, one_plus(x, z)), [(B, D0), (D0, C)]))
+                if Z:
+                    out.append((lambda h1, h2: par(h1, h2), [(B, C * X), (B, D0)]))
+                # a divider onto one element reads z/(z + x), a longer branch h0/(1 + x/z)
+                out.append((lambda h0, z: mul(h0, div(z, add(z, x))) if z.cost <= 1 else div(h0, one_plus(x, z)),
+                            [(B, D0), (D0, C)]))
         elif B == 0:  # A x/(C x + D0) = (A x/D0) || (A/C)
             if D0 != 0:
-                out.append((lambda h1, h2: par(h1, h2), [(A * X, D0), (A, C)]))
+                if Z:
+                    out.append((lambda h1, h2: par(h1, h2), [(A * X, D0), (A, C)]))
                 out.append((lambda h, z: mul(h, div(x, add(x, z))), [(A, C), (D0, C)]))
         elif D0 == 0:
             out.append((lambda h1, h2: add(h1, div(h2, x)), [(A, C), (B, C)]))
@@ -706,10 +776,14 @@ def _length(n: Node) -> int:
     return len(text(n))
 
 
+def _score(n: Node):
+    """Symbol occurrences, a subtraction counted as half of one (people write sums), then length."""
+    t = text(n)
+    return n.cost + 0.5 * (t.count("-")), len(t)
+
+
 def _better(a: Node, b: Node) -> bool:
-    if a.cost != b.cost:
-        return a.cost < b.cost
-    return _length(a) < _length(b)
+    return _score(a) < _score(b)
 
 
 # --- device symbols ------------------------------------------------------------------------------
@@ -815,6 +889,18 @@ def _variants(num: dict, den: dict, gens: list[str]):
         na, da = _reduce(na, da)
         yield base_name, na, da, ext
     del one_plus
+
+
+def _with_devices(dims, gens):
+    """Dimensions of the device symbols too: beta and alpha are plain numbers, re is in ohms."""
+    if dims is None:
+        return None
+    out = dict(dims)
+    for g in gens:
+        base = g.rsplit(".", 1)[-1]
+        if g not in out and base in ("beta", "alpha", "re"):
+            out[g] = (1, 0) if base == "re" else (0, 0)
+    return out
 
 
 def _reduce(num: dict, den: dict):
@@ -931,7 +1017,8 @@ def _terms_of(d: dict):
 
 
 def write_form(num: dict, den: dict, gens, *, expanded: bool = False, devices: bool = True,
-               beam: int | None = None, max_terms: int = MAX_SPLIT_TERMS, work: int | None = None) -> Form:
+               beam: int | None = None, max_terms: int = MAX_SPLIT_TERMS, work: int | None = None,
+               dims: dict | None = None) -> Form:
     """The readable exact form of num/den.
 
     Parameters
@@ -950,6 +1037,9 @@ def write_form(num: dict, den: dict, gens, *, expanded: bool = False, devices: b
         The size bound of the split search (expanded terms).
     work : int or None
         Ratios split in all (default :data:`WORK`); the search stops there, deterministically.
+    dims : dict or None
+        {symbol: (ohm exponent, second exponent)} (``printing.symbol_dims``); with it,
+        ``||`` is used for impedances only.
 
     Returns
     -------
@@ -982,7 +1072,7 @@ def write_form(num: dict, den: dict, gens, *, expanded: bool = False, devices: b
     share = [max(1, total // (3 * len(variants)))]
     for v in variants:
         _, n, d, g = v
-        S = _Search(_Poly(g), 1, max_terms, share)
+        S = _Search(_Poly(g), 1, max_terms, share, _with_devices(dims, g))
         share[0] = max(1, total // (3 * len(variants)))
         quick.append((S.ratio(S.P.from_dict(n), S.P.from_dict(d)), v))
     best, chosen = quick[0]
@@ -991,7 +1081,7 @@ def write_form(num: dict, den: dict, gens, *, expanded: bool = False, devices: b
             best, chosen = node, v
     if beam > 1:
         _, n, d, g = chosen
-        S = _Search(_Poly(g), beam, max_terms, [total - total // 3])
+        S = _Search(_Poly(g), beam, max_terms, [total - total // 3], _with_devices(dims, g))
         node = S.ratio(S.P.from_dict(n), S.P.from_dict(d))
         if _better(node, best):
             best = node
@@ -1001,6 +1091,84 @@ def write_form(num: dict, den: dict, gens, *, expanded: bool = False, devices: b
 def form_of(q, **kw) -> Form:
     """:func:`write_form` of a :class:`solver.analysis.symbolic.ports.SymbolicQuantity`."""
     return write_form(q.num, q.den, q.gens, **kw)
+
+
+# --- compact exact forms: shared Laplace minors ------------------------------------------------------
+def compact_domain(ring):
+    """(convert ring entry -> Node, zero, one) for the memoised Laplace expansion.
+
+    A ring monomial in ``X`` and ``1/X`` becomes X^(a - b); each matrix entry becomes
+    one node, so an entry or minor used in several places is one shared node.
+    """
+    names = ring.names
+    plain = []
+    for n in names:
+        plain.append((n[2:], -1) if n.startswith("1/") else (n, 1))
+    cache: dict = {}
+
+    def conv(p):
+        if isinstance(p, (int, Fraction)):
+            return num(p)
+        exps, coeffs = ring.terms(p)
+        terms = []
+        for m, c in sorted(zip(exps, coeffs), key=lambda t: tuple(-e for e in t[0])):
+            e: dict = {}
+            for (g, sg), k in zip(plain, m):
+                if k:
+                    e[g] = e.get(g, 0) + sg * k
+            top = [power(sym(g), k) for g, k in e.items() if k > 0]
+            bottom = [power(sym(g), -k) for g, k in e.items() if k < 0]
+            a = mul(num(abs(c.numerator)), *top) if top else num(abs(c.numerator))
+            if c.denominator != 1:
+                bottom.insert(0, num(c.denominator))
+            t = div(a, mul(*bottom)) if bottom else a
+            terms.append(neg(t) if c < 0 else t)
+        key = tuple(text(t) for t in terms)
+        hit = cache.get(key)
+        if hit is None:
+            hit = cache[key] = add(*terms) if terms else ZERO
+        return hit
+
+    return conv, ZERO, ONE
+
+
+def expanded_terms_bound(root: Node) -> int:
+    """Terms of the full expansion of a node DAG without cancellation (an upper bound)."""
+    memo: dict = {}
+    stack = [(root, False)]
+    while stack:
+        n, done = stack.pop()
+        if id(n) in memo:
+            continue
+        kids = [] if n.op in ("sym", "num") else [n.args[0]] if n.op in ("pow", "neg") else list(n.args)
+        if not done:
+            stack.append((n, True))
+            stack.extend((k, False) for k in kids if id(k) not in memo)
+            continue
+        if n.op == "sym":
+            v = 1
+        elif n.op == "num":
+            v = 0 if n.args[0] == 0 else 1
+        elif n.op == "add":
+            v = sum(memo[id(k)] for k in kids)
+        elif n.op == "mul":
+            v = 1
+            for k in kids:
+                v *= memo[id(k)]
+        elif n.op == "pow":
+            v = memo[id(kids[0])] ** n.args[1]
+        else:  # neg, and div or par (not made by the expansion)
+            v = memo[id(kids[0])] if n.op == "neg" else max(memo[id(k)] for k in kids)
+        memo[id(n)] = v
+    return memo[id(root)]
+
+
+def compact_form(num_node: Node, den_node: Node, gens, num=None, den=None) -> Form:
+    """The exact result num/den as shared minors: every node used twice is a where line."""
+    if _is_num(num_node, 0):
+        return Form("0", [], 0, "compact", ZERO, num=num, den=den, gens=gens)
+    root = div(num_node, den_node) if not _is_num(den_node, 1) else num_node
+    return finish(root, "compact", gens, num, den, always_where=True)
 
 
 # --- sympy syntax (for the JSON "sympy" field; no sympy import) ---------------------------------------
