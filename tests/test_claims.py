@@ -296,3 +296,51 @@ def test_check_runs_the_input_checks_of_solve(cli, netlist):
     r, s = cli("check", p), cli("solve", p)
     assert r.returncode == 2 and f"{p}:6:1: error:" in r.stderr and "Traceback" not in r.stderr
     assert r.stderr.splitlines()[0] == s.stderr.splitlines()[0]
+
+
+def test_check_path_imports_neither_sympy_nor_scipy():
+    # the whole `portwise check` of bundled examples (a reactive one, a symmetric pair, a failing claim):
+    # claims, limits and the printed exact quantity run on the engine's polynomials (common practice,
+    # no source: lazy imports keep the command quick)
+    import subprocess
+    import sys
+    from conftest import ROOT
+    code = r"""
+import contextlib, io, runpy, sys
+for f in ('circuits/contact_pickup_preamp.pw', 'circuits/geophone_diffpair.pw', 'circuits/hydrophone_preamp.pw'):
+    sys.argv = ['solver', 'check', f]
+    out = io.StringIO()
+    with contextlib.redirect_stdout(out):
+        try:
+            runpy.run_module('solver', run_name='__main__')
+        except SystemExit as e:
+            assert e.code in (0, 1, None), e.code
+    assert 'claim(s) at' in out.getvalue()
+bad = sorted(m for m in sys.modules if m == 'sympy' or m.startswith('scipy.sparse'))
+assert not bad, bad
+"""
+    p = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True, timeout=120)
+    assert p.returncode == 0, p.stderr
+
+
+def test_dominant_form_read_back_as_a_claim_has_the_reported_error(cli, netlist):
+    # derive --dominant prints a design-oriented form of the pruned ratio and its error at the
+    # analysis frequency; the same text, read back by check as a claim, must be off the exact value
+    # (numeric engine) by exactly that error, and within the a-priori bound (triangle inequality on the
+    # dropped coefficients, common practice, no source)
+    from conftest import CIRCUITS
+    src = CIRCUITS / "hydrophone_preamp.pw"
+    r = cli("derive", src, "Gv", "--dominant", "2%", "--json")
+    assert r.returncode == 0, r.stderr
+    d = json.loads(r.stdout)
+    assert not d.get("where")
+    dom = d["dominant"]
+    assert dom["terms_dropped"] > 0 and dom["error_at_frequency"] <= dom["error_bound_at_frequency"]
+    p = netlist(src.read_text() + f"claim Gv ~ {d['expression']} within 5%\n")
+    r = cli("check", p, "--json")
+    assert r.returncode in (0, 1), r.stderr
+    v = json.loads(r.stdout)["claims"][-1]
+    assert v["rel_error"] == pytest.approx(dom["error_at_frequency"], rel=1e-6)
+    assert v["holds"] is True
+    text = cli("derive", src, "Gv", "--dominant", "2%").stdout
+    assert "bound" in text and d["expression"] in text

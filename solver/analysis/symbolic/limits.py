@@ -318,7 +318,7 @@ def designer_moves(c, gens, values=None, s: complex = 0j, exact: Rat | None = No
                 resistors.append(_ray(f"{e.symbol} -> 0", f"{e.symbol} → 0", [(k, -1)]))
     coupling = [x for x in caps if _short_like(exact, idx[x], values, gens, s)]
     cap_moves = []
-    if S_NAME in idx and (caps or dcaps or inductors):
+    if S_NAME in idx and len(caps) + len(dcaps) + len(inductors) > 1:  # one alone: its own name says it
         if caps and coupling == caps and not dcaps and not inductors:
             inf_words = "coupling capacitors shorted (s → ∞)" if len(caps) > 1 else f"{caps[0]} shorted (s → ∞)"
         else:
