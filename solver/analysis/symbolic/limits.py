@@ -218,6 +218,13 @@ class Move:
     kind: str  # "ray", "one", "merge"
     arg: object
 
+    @property
+    def cost(self) -> int:
+        """0: one symbol's ray (stays in flint), 1: compose (α → 1, the halves), 2: a ray of several symbols."""
+        if self.kind == "ray":
+            return 0 if len(self.arg) == 1 else 2
+        return 1
+
     def apply(self, r):
         if isinstance(r, str):
             return r
@@ -477,14 +484,18 @@ def search(exact: Rat, claimed: Rat, moves, seconds: float = SEARCH_SECONDS,
     The search stops after ``seconds`` or ``max_combinations`` and says so.
     """
     t0 = time.perf_counter()
+    rank = {id(m): k for k, m in enumerate(moves)}
+    moves = sorted(moves, key=lambda m: (m.cost, rank[id(m)]))  # cheap ones first: a time limit cuts the dear
     singles = []
     out = Search()
     n = len(moves)
     pairs_total = sum(1 for i in range(n) for j in range(i + 1, n) if not moves[i].symbols & moves[j].symbols)
     out.total = n + pairs_total
 
-    def stop(reason):
-        out.complete, out.reason = False, reason
+    def stop(reason=None):
+        if reason:
+            out.complete, out.reason = False, reason
+        out.found.sort(key=lambda ms: [rank[id(m)] for m in ms])  # reported in the designer's order
         return out
     for m in moves:
         if time.perf_counter() - t0 > seconds:
@@ -499,7 +510,7 @@ def search(exact: Rat, claimed: Rat, moves, seconds: float = SEARCH_SECONDS,
             out.found.append([m])
     if out.found:
         out.total = n  # pairs are not needed
-        return out
+        return stop()
     if exact.nterms > max_terms:
         return stop(f"the exact quantity has {exact.nterms} terms, over {max_terms}")
     for i in range(n):
@@ -516,5 +527,5 @@ def search(exact: Rat, claimed: Rat, moves, seconds: float = SEARCH_SECONDS,
             out.tried += 1
             le, lc = moves[j].apply(singles[i][0]), moves[j].apply(singles[i][1])
             if _good(le) and _good(lc) and identical(le, lc):
-                out.found.append([moves[i], moves[j]])
-    return out
+                out.found.append(sorted([moves[i], moves[j]], key=lambda m: rank[id(m)]))
+    return stop()

@@ -54,7 +54,7 @@ def table(verdicts) -> str:
             else:
                 said = "no limit found that makes it exact"
             if v.search_note:
-                said += f" ({v.search_note})"
+                said += f"; {v.search_note}"
             notes.append(f"  line {v.line}: {said}")
             if v.exact_expression:
                 notes.append(f"    exact {v.quantity} = {v.exact_expression}")
