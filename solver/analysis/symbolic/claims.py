@@ -621,6 +621,7 @@ MAX_SHOWN = 200
 #: ratio does not print within MAX_SHOWN characters, and the printer's search would cost more than the check
 MAX_SHOWN_TERMS = 40
 SHOWN_WORK = 50  # the printer's work bound for it (forms.write_form ``work``)
+SHOWN_SECONDS = 0.3  # and its wall-clock guard (forms.write_form ``seconds``)
 
 
 def _shown(q, dims=None) -> str:
@@ -636,7 +637,7 @@ def _shown(q, dims=None) -> str:
     if not num or not den:
         return ""
     from solver.analysis.symbolic.forms import write_form
-    f = write_form(num, den, q.gens, work=SHOWN_WORK, dims=dims)
+    f = write_form(num, den, q.gens, work=SHOWN_WORK, dims=dims, seconds=SHOWN_SECONDS)
     text = f.text if not f.where else ""
     return text if len(text) <= MAX_SHOWN else ""
 

@@ -33,6 +33,7 @@ diagrams", IEEE Trans. CAD 19(1), 2000 (sharing of minors).
 """
 from __future__ import annotations
 
+import time
 from dataclasses import dataclass, field
 from fractions import Fraction
 from math import gcd
@@ -44,7 +45,11 @@ MAX_SPLIT_TERMS = 240
 #: results with more expanded terms than this are written from shared minors (derive)
 DESIGN_TERMS = 60
 #: flint factorisation is tried up to this many terms
-MAX_FACTOR_TERMS = 400
+MAX_FACTOR_TERMS = 120
+#: polynomials up to this many terms try two symbols to nest on, longer ones the most frequent
+HORNER_WIDE_TERMS = 16
+#: wall-clock guard of one write_form (seconds): past it, what is left is printed expanded
+SECONDS = 2.0
 #: elements followed at each step of the greedy search
 BEAM = 2
 #: ratios split per result (all variants together): a deterministic bound on the search time
@@ -142,6 +147,11 @@ def num(q) -> Node:
 ZERO, ONE = num(0), num(1)
 
 
+def _nice(q: Fraction) -> bool:
+    """A coefficient printed exactly (small fraction); others print as 6-digit decimals."""
+    return q.denominator <= 10**4 and abs(q.numerator) <= 10**9
+
+
 def _order(n: Node):
     """Factors and branches: symbols first, by name, then compound parts as they came."""
     return (0, n.args[0]) if n.op == "sym" else (1, "") if n.op != "pow" or n.args[0].op != "sym" \
@@ -215,6 +225,8 @@ def div(a: Node, b: Node) -> Node:
         q = b.args[0]
         if _is_num(a):
             out = num(a.args[0] / q)
+        elif not _nice(q):
+            out = mul(a, num(1 / q))
         else:
             out = mul(a, num(q.denominator)) if q.denominator != 1 else a
             if q.numerator != 1:
@@ -507,10 +519,12 @@ def _content(coeffs) -> Fraction:
 class _Search:
     """The memoised greedy search over bilinear splits (one per variant of the symbols)."""
 
-    def __init__(self, P: _Poly, beam: int = BEAM, max_terms: int = MAX_SPLIT_TERMS, work=None, dims=None):
+    def __init__(self, P: _Poly, beam: int = BEAM, max_terms: int = MAX_SPLIT_TERMS, work=None, dims=None,
+                 deadline=None):
         self.P = P
         self.dims = [dims.get(n) for n in P.names] if dims else None
         self.work = work if work is not None else [WORK]  # ratios split, shared by the variants
+        self.deadline = deadline if deadline is not None else time.perf_counter() + SECONDS
         self.beam = beam
         self.max_terms = max_terms
         self.memo: dict = {}
@@ -557,6 +571,8 @@ class _Search:
         return out
 
     def _mono(self, m, c=Fraction(1)) -> Node:
+        if not _nice(c):  # a numeric coefficient: one decimal number in front
+            return mul(num(c), self._mono(m))
         top, bottom = [], []
         for i, e in enumerate(m):
             if e > 0:
@@ -580,7 +596,11 @@ class _Search:
         if len(exps) == 1:
             return self._mono(exps[0], coeffs[0])
         k = _content(coeffs)
-        if sum(1 for c in coeffs if c < 0) * 2 > len(coeffs):
+        if not _nice(k) or not all(_nice(c) for c in coeffs):
+            k = max((abs(c) for c in coeffs))  # numeric symbols: the largest coefficient 1, not a tiny content
+        negative = sum(1 for c in coeffs if c < 0) * 2
+        if negative > len(coeffs) or (negative == len(coeffs) and any(
+                c < 0 and not any(m) for m, c in zip(exps, coeffs))):  # 1 - alpha, not alpha - 1
             k = -k
         low = tuple(min(m[i] for m in exps) for i in range(self.P.n))
         if k != 1 or any(low):
@@ -599,7 +619,7 @@ class _Search:
                 if e:
                     counts[i] += 1
         order = sorted((i for i in range(self.P.n) if counts[i] >= 2), key=lambda i: -counts[i])
-        for i in order[: self.beam]:
+        for i in order[: (self.beam if len(exps) <= HORNER_WIDE_TERMS else 1)]:
             a, b = {}, {}
             for m, c in zip(exps, coeffs):
                 if m[i]:
@@ -631,6 +651,9 @@ class _Search:
             return self.poly(N)
         best = div(self.poly(N), self.poly(D))
         if len(N) + len(D) > self.max_terms or self.work[0] <= 0:
+            return best
+        if time.perf_counter() > self.deadline:
+            self.work[0] = 0
             return best
         self.work[0] -= 1
         if len(D) == 1:
@@ -1018,7 +1041,7 @@ def _terms_of(d: dict):
 
 def write_form(num: dict, den: dict, gens, *, expanded: bool = False, devices: bool = True,
                beam: int | None = None, max_terms: int = MAX_SPLIT_TERMS, work: int | None = None,
-               dims: dict | None = None) -> Form:
+               dims: dict | None = None, seconds: float = SECONDS) -> Form:
     """The readable exact form of num/den.
 
     Parameters
@@ -1040,6 +1063,9 @@ def write_form(num: dict, den: dict, gens, *, expanded: bool = False, devices: b
     dims : dict or None
         {symbol: (ohm exponent, second exponent)} (``printing.symbol_dims``); with it,
         ``||`` is used for impedances only.
+    seconds : float
+        Wall-clock guard: past it the remaining parts print expanded (the work bound
+        normally stops the search first, so the output does not depend on the machine).
 
     Returns
     -------
@@ -1066,25 +1092,25 @@ def write_form(num: dict, den: dict, gens, *, expanded: bool = False, devices: b
         size = len(num) + len(den)
         beam = 3 if size <= 30 else 2 if size <= 80 else 1
     total = WORK if work is None else work
+    deadline = time.perf_counter() + seconds
     variants = list(_variants(num, den, gens)) if devices else [("circuit", num, den, gens)]
     # a quick greedy pass over every variant, then the rest of the work on the most promising one
     quick = []
     share = [max(1, total // (3 * len(variants)))]
     for v in variants:
         _, n, d, g = v
-        S = _Search(_Poly(g), 1, max_terms, share, _with_devices(dims, g))
+        S = _Search(_Poly(g), 1, max_terms, share, _with_devices(dims, g), deadline)
         share[0] = max(1, total // (3 * len(variants)))
         quick.append((S.ratio(S.P.from_dict(n), S.P.from_dict(d)), v))
-    best, chosen = quick[0]
-    for node, v in quick[1:]:
-        if _better(node, best):
-            best, chosen = node, v
-    if beam > 1:
-        _, n, d, g = chosen
-        S = _Search(_Poly(g), beam, max_terms, [total - total // 3], _with_devices(dims, g))
-        node = S.ratio(S.P.from_dict(n), S.P.from_dict(d))
-        if _better(node, best):
-            best = node
+    ranked = sorted(range(len(quick)), key=lambda j: (_score(quick[j][0]), j))
+    best = quick[ranked[0]][0]
+    if beam > 1:  # the rest of the work on the two most promising variants
+        for j in ranked[:2]:
+            _, n, d, g = quick[j][1]
+            S = _Search(_Poly(g), beam, max_terms, [(total - total // 3) // 2], _with_devices(dims, g), deadline)
+            node = S.ratio(S.P.from_dict(n), S.P.from_dict(d))
+            if _better(node, best):
+                best = node
     return finish(best, "design", gens, num, den)
 
 
@@ -1110,19 +1136,23 @@ def compact_domain(ring):
         if isinstance(p, (int, Fraction)):
             return num(p)
         exps, coeffs = ring.terms(p)
-        terms = []
-        for m, c in sorted(zip(exps, coeffs), key=lambda t: tuple(-e for e in t[0])):
+        groups: dict = {}  # by power of s: 1/RC + 1/Q1.ro + s*(Q1.cpi + Q1.cmu)
+        for m, c in sorted(zip(exps, coeffs), key=lambda t: (t[1] < 0, tuple(-e for e in t[0]))):
             e: dict = {}
             for (g, sg), k in zip(plain, m):
                 if k:
                     e[g] = e.get(g, 0) + sg * k
-            top = [power(sym(g), k) for g, k in e.items() if k > 0]
-            bottom = [power(sym(g), -k) for g, k in e.items() if k < 0]
-            a = mul(num(abs(c.numerator)), *top) if top else num(abs(c.numerator))
-            if c.denominator != 1:
-                bottom.insert(0, num(c.denominator))
-            t = div(a, mul(*bottom)) if bottom else a
-            terms.append(neg(t) if c < 0 else t)
+            groups.setdefault(e.pop(S_NAME, 0), []).append((e, c))
+        terms = []
+        for ks in sorted(groups):
+            part = [_entry_term(e, c) for e, c in groups[ks]]
+            if ks == 0:
+                terms.extend(part)
+            else:
+                inner = add(*part)
+                sign = inner.op == "neg"
+                t = mul(power(sym(S_NAME), ks), inner.args[0] if sign else inner)
+                terms.append(neg(t) if sign else t)
         key = tuple(text(t) for t in terms)
         hit = cache.get(key)
         if hit is None:
@@ -1130,6 +1160,17 @@ def compact_domain(ring):
         return hit
 
     return conv, ZERO, ONE
+
+
+def _entry_term(e: dict, c: Fraction) -> Node:
+    """One term of a matrix entry: c * product of symbols^k (negative k below the line)."""
+    top = [power(sym(g), k) for g, k in e.items() if k > 0]
+    bottom = [power(sym(g), -k) for g, k in e.items() if k < 0]
+    a = mul(num(abs(c.numerator)), *top) if top else num(abs(c.numerator))
+    if c.denominator != 1:
+        bottom.insert(0, num(c.denominator))
+    t = div(a, mul(*bottom)) if bottom else a
+    return neg(t) if c < 0 else t
 
 
 def expanded_terms_bound(root: Node) -> int:
