@@ -344,3 +344,20 @@ def test_dominant_form_read_back_as_a_claim_has_the_reported_error(cli, netlist)
     assert v["holds"] is True
     text = cli("derive", src, "Gv", "--dominant", "2%").stdout
     assert "bound" in text and d["expression"] in text
+
+
+def test_exact_when_search_has_a_combination_bound():
+    # common practice, no source: the bound in size is deterministic (no clock), and says so
+    from solver.analysis.symbolic import limits as L
+    from solver.analysis.symbolic.claims import to_rational
+    from solver.analysis.symbolic.ports import symbol_values, symbolic_port_quantities
+    from solver.engine.symbolic.ring import Ring
+    c = solver.loads(CE + "claim Av ~ -Q1.gm*RC within 50%\n")  # needs two limits: ro -> oo and RL -> oo
+    sq = symbolic_port_quantities(c, which=["Av"])["Av"]
+    ring = Ring(sq.gens)
+    exact, claimed = L.from_dicts(ring, sq.num, sq.den), to_rational(c.claims[0].expr, c, ring)
+    moves = L.designer_moves(c, sq.gens, symbol_values(c), 0j, exact)
+    full = L.search(exact, claimed, moves, seconds=60)
+    assert full.complete and full.keys == ["Q1.ro -> oo and RL -> oo"]
+    cut = L.search(exact, claimed, moves, seconds=60, max_combinations=len(moves) + 1)
+    assert not cut.complete and "combinations" in cut.note() and cut.tried < cut.total
