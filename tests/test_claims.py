@@ -361,3 +361,22 @@ def test_exact_when_search_has_a_combination_bound():
     assert full.complete and full.keys == ["Q1.ro -> oo and RL -> oo"]
     cut = L.search(exact, claimed, moves, seconds=60, max_combinations=len(moves) + 1)
     assert not cut.complete and "combinations" in cut.note() and cut.tried < cut.total
+
+
+def test_both_polynomial_backends_give_the_same_verdicts(monkeypatch):
+    # the pure-sympy ring (no python-flint) must reach the same verdicts and limits; the reference is
+    # the degenerated CE in the T model, Avo = -alpha*RC/(re + RE) (Sedra & Smith 7th ed., 7.3.4,
+    # from memory): -RC/(re + RE) needs alpha -> 1, -RC/RE also re -> 0
+    from solver.analysis.symbolic.claims import check
+    from solver.engine.symbolic import ring
+    text = ("signal VS (b, gnd) 1 mV\nnpn Q1 (c, b, e) gm=40m, rpi=2k5, model=t\nresistor RE (e, gnd) 220\n"
+            "resistor RC (c, gnd) 4k7\noutput (c, gnd)\nclaim Avo ~ -RC/(Q1.re + RE) within 5%\n"
+            "claim Avo ~ -RC*(Q1.re + RE)/(Q1.re + RE)^2 within 5%\nclaim Avo ~ -RC/RE within 20%\n")
+    got = {}
+    for backend in ("sympy", None):
+        monkeypatch.setattr(ring, "DEFAULT_BACKEND", backend)
+        got[backend] = [(v.holds, v.exact, v.exact_when, round(v.rel_error, 12))
+                        for v in check(solver.loads(text), search_seconds=60).verdicts]
+    assert got["sympy"] == got[None]
+    assert got[None][0][2] == got[None][1][2] == ["Q1.alpha -> 1"]
+    assert got[None][2][2] == ["Q1.alpha -> 1 and Q1.re -> 0"]

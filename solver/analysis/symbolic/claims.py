@@ -145,9 +145,11 @@ class RingAlgebra:
         if op == "/":
             return self._norm(an * bd, ad * bn)
         # ^: an integer constant exponent only
-        if bd != self.ring.one or not bn.is_constant():
+        terms = self.ring.to_dict(bn)
+        zero = (0,) * len(self.ring.names)
+        if bd != self.ring.one or any(m != zero for m in terms):
             raise NotRational("a symbolic power")
-        q = Fraction(self.ring.to_dict(bn).get((0,) * len(self.ring.names), 0))
+        q = Fraction(terms.get(zero, 0))
         if q.denominator != 1:
             raise NotRational("a fractional power")
         k = int(q)
