@@ -516,6 +516,29 @@ def _content(coeffs) -> Fraction:
     return Fraction(g or 1, l)
 
 
+def _mono_node(syms, m, c=Fraction(1)) -> Node:
+    """c * prod(sym^e) with negative exponents below the line."""
+    if not _nice(c):  # a numeric coefficient: one decimal number in front
+        return mul(num(c), _mono_node(syms, m))
+    top, bottom = [], []
+    for i, e in enumerate(m):
+        if e > 0:
+            top.append(power(syms[i], e))
+        elif e < 0:
+            bottom.append(power(syms[i], -e))
+    a = mul(num(c.numerator), *top) if top or c.numerator != 1 else ONE
+    if c.denominator != 1:
+        bottom.insert(0, num(c.denominator))
+    return div(a, mul(*bottom)) if bottom else a
+
+
+def _flat_node(syms, exps, coeffs) -> Node:
+    """A polynomial written out term by term (longest terms first, subtractions last)."""
+    order = sorted(range(len(exps)), key=lambda j: (-sum(1 for e in exps[j] if e), coeffs[j] < 0,
+                                                   tuple(-e for e in exps[j])))
+    return add(*[_mono_node(syms, exps[j], coeffs[j]) for j in order])
+
+
 class _Search:
     """The memoised greedy search over bilinear splits (one per variant of the symbols)."""
 
@@ -571,23 +594,10 @@ class _Search:
         return out
 
     def _mono(self, m, c=Fraction(1)) -> Node:
-        if not _nice(c):  # a numeric coefficient: one decimal number in front
-            return mul(num(c), self._mono(m))
-        top, bottom = [], []
-        for i, e in enumerate(m):
-            if e > 0:
-                top.append(power(self.syms[i], e))
-            elif e < 0:
-                bottom.append(power(self.syms[i], -e))
-        a = mul(num(c.numerator), *top) if top or c.numerator != 1 else ONE
-        if c.denominator != 1:
-            bottom.insert(0, num(c.denominator))
-        return div(a, mul(*bottom)) if bottom else a
+        return _mono_node(self.syms, m, c)
 
     def _flat(self, exps, coeffs) -> Node:
-        order = sorted(range(len(exps)), key=lambda j: (-sum(1 for e in exps[j] if e), coeffs[j] < 0,
-                                                       tuple(-e for e in exps[j])))
-        return add(*[self._mono(exps[j], coeffs[j]) for j in order])
+        return _flat_node(self.syms, exps, coeffs)
 
     def _poly(self, p) -> Node:
         exps, coeffs = self.P.terms(p)
@@ -656,9 +666,22 @@ class _Search:
             self.work[0] = 0
             return best
         self.work[0] -= 1
-        if len(D) == 1:
+        if len(D) == 1:  # a sum over a monomial, e.g. (RE + RL)/(RE*RL) = 1/(RE || RL)
+            if len(N) > 1:
+                for cand in [recip(self.ratio(D, N))] + self._products(N, D):
+                    if _better(cand, best):
+                        best = cand
             return best
         for cand in self._products(N, D):
+            if _better(cand, best):
+                best = cand
+        rest = D - N
+        if rest != 0 and len(rest) < len(D):  # a divider: N/(N + W) = 1/(1 + W/N)
+            w = self.ratio(rest, N)
+            cand = div(ONE, add(ONE, w))
+            if w.op == "div" and w.args[1].cost <= 2:  # onto a short branch: Z/(Z + W')
+                z = w.args[1]
+                cand = div(z, add(z, w.args[0]))
             if _better(cand, best):
                 best = cand
         scored = []
@@ -1024,11 +1047,11 @@ def _used_gens(num, den, gens):
 
 def expanded_node(num: dict, den: dict, gens) -> Node:
     """The flat sum-of-products ratio (numerator and denominator expanded)."""
-    S = _Search(_Poly(gens))
-    n = S._flat(*_terms_of(num)) if num else ZERO
+    syms = [sym(g) for g in gens]
+    n = _flat_node(syms, *_terms_of(num)) if num else ZERO
     if not den:
         return sym("oo")
-    d = S._flat(*_terms_of(den))
+    d = _flat_node(syms, *_terms_of(den))
     if len(den) == 1:
         return div(n, d)
     return div(n, d) if not _is_num(d, 1) else n
@@ -1086,7 +1109,8 @@ def write_form(num: dict, den: dict, gens, *, expanded: bool = False, devices: b
         return Form("oo", [], 0, "expanded", sym("oo"), num=num, den=den, gens=gens)
     if expanded:
         return finish(expanded_node(num, den, gens), "expanded", gens, num, den)
-    if len(num) + len(den) > max_terms:
+    from solver.engine.symbolic.ring import have_flint
+    if len(num) + len(den) > max_terms or not have_flint():  # the search needs python-flint
         return finish(expanded_node(num, den, gens), "expanded", gens, num, den)
     if beam is None:
         size = len(num) + len(den)
