@@ -47,17 +47,35 @@ def read_source(path: str | Path) -> str:
         raise error(None, f"cannot read '{path}': {e.strerror or e}") from None
     if len(data) > limit:
         raise error(Loc(str(path), 1, 1), f"file larger than {limit} bytes")
+    utf16 = _utf16(data)
+    if utf16:
+        raise error(Loc(str(path), 1, 1), f"the file is {utf16}, not UTF-8: save the file as UTF-8")
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError as e:
         line = data[: e.start].count(b"\n") + 1
         col = e.start - (data.rfind(b"\n", 0, e.start) + 1) + 1
-        raise error(Loc(str(path), line, col), "invalid UTF-8 byte in the file") from None
+        byte = data[e.start]
+        seen = bytes([byte]).decode("cp1252", "replace")
+        guess = f" (in Latin-1 or Windows-1252 it would be '{seen}')" if byte >= 0xA0 and seen.isprintable() else ""
+        raise error(Loc(str(path), line, col), f"invalid UTF-8 byte 0x{byte:02X} in the file{guess}: "
+                    "save the file as UTF-8") from None
     if text.startswith("\ufeff"):
         text = text[1:]
     if not text.strip():
         raise error(Loc(str(path), 1, 1), "the file is empty")
     return text
+
+
+def _utf16(data: bytes) -> str:
+    """'UTF-16' (with its byte order) when the bytes look like it: a byte-order mark, or every
+    other byte zero in an ASCII-only text (common practice, no source)."""
+    if data[:2] in (b"\xff\xfe", b"\xfe\xff"):
+        return "UTF-16 (it starts with a UTF-16 byte-order mark)"
+    head = data[:200]
+    if len(head) >= 4 and head.count(0) * 2 >= len(head) - 1:
+        return "UTF-16 (every other byte is zero)"
+    return ""
 
 
 def loads(text: str, file: str = "<string>") -> Circuit:

@@ -17,6 +17,7 @@ from solver.language import units as U
 from solver.circuit.devices import BJT_QUANTITIES, DIODE_QUANTITIES, MOS_QUANTITIES, DeviceError, small_signal
 from solver.diagnostics import Diagnostics, InputError, Loc, error
 from solver.circuit.elements import CCCS, CCVS, VCCS, VCVS, Capacitor, Inductor, Nullor, Resistor, VoltageSource
+from solver.circuit.plausible import implausible
 from solver.circuit.model import PORT_QUANTITIES, Circuit, ClaimSpec, Device, Load, Signal, Supply
 from solver.language.statements import BlockStart, Claim, ElementStmt, End, Ground, Let, Netlist, Output, Param, Title, Use
 
@@ -317,6 +318,11 @@ def _check_current_sign(st: ElementStmt, params: dict) -> None:
                     f"(got {params[key]:g} A); a negative {key}= is for a p-type device")
 
 
+def _literal(e) -> str | None:
+    """The text of a value written as one number (``10m``, ``-3``), else None."""
+    return e.text if isinstance(e, ex.Num) else None
+
+
 def _model_name(p: Param) -> str:
     v = p.value
     if isinstance(v, ex.Ref) and v.parts in (("t",), ("T",)):
@@ -584,6 +590,11 @@ class _Elaborator:
             raise error(s.value.loc, f"{s.keyword} value is not finite")
         return v
 
+    def _plausible(self, role: str, value: float, expr, loc: Loc) -> None:
+        msg = implausible(role, value, _literal(expr))
+        if msg:
+            self.diags.warning(loc, msg)
+
     def _element(self, s: ElementStmt, entry: Entry, scope: Scope, top: bool):
         """Build one element statement into the circuit: a device, the signal, a supply, the
         load, or a linear primitive."""
@@ -591,6 +602,13 @@ class _Elaborator:
             return
         kw = s.keyword
         nodes = [tuple(self.res.node(n, scope) for n in g) for g in s.groups]
+        if len(nodes[0]) == 2 and nodes[0][0] == nodes[0][1] and kw not in ("signal", "load"):
+            # joins nothing; the graph checks then blame this line, not its neighbours
+            on = "the reference node" if nodes[0][0] in self.ground else f"node '{nodes[0][0]}'"
+            self.diags.warning(s.groups[0][0].loc._replace(width=s.groups[0][-1].loc.col + s.groups[0][-1].loc.width
+                                                           - s.groups[0][0].loc.col),
+                               f"{entry.full} has both ends on {on}: it carries no current and does nothing "
+                               "(a typo for another node?)")
         if kw in ("npn", "pnp", "nmos", "pmos", "diode", "opamp"):
             self._device(s, entry, nodes)
         elif kw == "signal":
@@ -598,6 +616,7 @@ class _Elaborator:
         elif kw == "supply":
             v = self._value(s, entry)
             kind = "A" if v.dim == U.AMP else "V"
+            self._plausible(f"supply_{kind}", v.x, s.value, s.value.loc)
             short = VoltageSource(entry.full, nodes[0], 0.0, None, entry.full, s.loc) if kind == "V" else None
             self.circuit.supplies.append(Supply(entry.full, nodes[0], kind, v.x, s.loc, short))
         elif kw == "load":
@@ -608,6 +627,9 @@ class _Elaborator:
     def _device(self, s: ElementStmt, entry: Entry, nodes):
         c, full = self.circuit, entry.full
         dev = self.res.device(entry)
+        for p in s.params:
+            if p.key in ("ic", "id") and p.key in dev.params:
+                self._plausible(p.key, dev.params[p.key], p.value, p.value.loc)
         if s.keyword != "opamp":
             if s.keyword in ("nmos", "pmos") and len(nodes[0]) == 4 and nodes[0][3] == nodes[0][2]:
                 del dev.nodes["B"]  # the body tied to the source: no body effect
@@ -638,6 +660,9 @@ class _Elaborator:
             raise error(s.params[0].value.loc, "rs must not be negative")
         if kind == "A" and rs.x == 0:
             raise error(s.params[0].value.loc, "a current signal with rs=0 is shorted")
+        rs_param = next((p for p in s.params if p.key == "rs"), None)
+        if rs_param is not None:
+            self._plausible("rs", rs.x, rs_param.value, rs_param.value.loc)
         c.signal = Signal(full, nodes[0], kind, v.x, rs.x, s.loc)
         c.values[f"{full}.rs"] = rs.x
 
@@ -652,6 +677,7 @@ class _Elaborator:
             raise error(s.value.loc, "a load of 0 Ω shorts the output")
         if v.x < 0:
             self.diags.warning(s.value.loc, f"negative load value ({v.x:g})")
+        self._plausible("load", v.x, s.value, s.value.loc)
         c.load = Load(full, nodes[0], v.x, s.loc)
         c.values[full] = v.x
 
@@ -665,6 +691,8 @@ class _Elaborator:
             raise error(s.value.loc, what)
         if kw in ("resistor", "capacitor", "inductor") and v.x < 0:
             self.diags.warning(s.value.loc, f"negative {kw} value ({v.x:g})")
+        if kw in ("resistor", "capacitor", "inductor"):
+            self._plausible(kw, v.x, s.value, s.value.loc)
         c.values[full] = v.x
         cls = {"resistor": Resistor, "capacitor": Capacitor, "inductor": Inductor, "vccs": VCCS,
                "vcvs": VCVS, "cccs": CCCS, "ccvs": CCVS}[kw]

@@ -311,8 +311,11 @@ def _floating_groups(k: _Ctx, tied: bool) -> list[Diagnostic]:
         inner: dict[str, list[Branch]] = {}
         cut: dict[str, list[Branch]] = {}
         sensed: dict[str, list[Branch]] = {}
+        idle: dict[str, list[Branch]] = {}  # elements with both ends on one node of the group
         for b in bs:
             ra, rb = find(b.nodes[0]), find(b.nodes[1])
+            if b.nodes[0] == b.nodes[1] and ra != root:
+                idle.setdefault(ra, []).append(b)
             if b.kind != "i":
                 if ra != root:
                     inner.setdefault(ra, []).append(b)
@@ -348,6 +351,12 @@ def _floating_groups(k: _Ctx, tied: bool) -> list[Diagnostic]:
                        f" (a control input draws no current): nothing sets {'its' if one else 'their'}"
                        f" voltage{dc}{context}")
                 loc = _first_loc(s_, where)
+            if r in idle:  # the likely cause is the element that joins nothing: blame it, not its neighbours
+                i_ = idle[r]
+                msg = (f"{list_names(i_, _label)} {'has' if len(i_) == 1 else 'have'} both ends on "
+                       f"{describe_node(i_[0].nodes[0], circuit)}, so {'it joins' if len(i_) == 1 else 'they join'} "
+                       f"nothing: {msg}")
+                loc = _first_loc(i_, where)
             diags.append(Diagnostic("error", loc, msg))
     return diags
 

@@ -654,11 +654,47 @@ def parse(text: str, file: str = "<string>") -> Netlist:
     return _parse(text, file, fast=True)
 
 
+def compatibility_forms(text: str) -> str:
+    """Unicode compatibility characters outside strings replaced by their NFKC form.
+
+    The ohm sign U+2126 becomes the Greek capital omega U+03A9 the grammar takes, the
+    micro sign U+00B5 the Greek mu U+03BC, full-width digits and letters ASCII; only
+    characters whose NFKC form is one character are replaced, so every column stays
+    where it was. Quoted strings (a title) are kept as written.
+
+    References
+    ----------
+    Unicode Standard Annex #15, Unicode Normalization Forms (NFKC).
+
+    Examples
+    --------
+    >>> compatibility_forms("resistor R1 (a, b) 4.7 k\u2126") == "resistor R1 (a, b) 4.7 k\u03a9"
+    True
+    >>> compatibility_forms("let x = \uff14\uff17")
+    'let x = 47'
+    """
+    if text.isascii():
+        return text
+    import unicodedata
+
+    def one(m):
+        ch = m.group()
+        if ch[0] == '"':
+            return ch
+        n = unicodedata.normalize("NFKC", ch)
+        return n if len(n) == 1 else ch
+    return _COMPAT.sub(one, text)
+
+
+_COMPAT = re.compile(r'"(?:[^"\\\n]|\\.)*"|[^\x00-\x7f]')
+
+
 def _parse(text: str, file: str, fast: bool) -> Netlist:
     """:func:`parse`; ``fast=False`` is lark alone (the reference the fast path is tested against)."""
     diags = Diagnostics()
     if len(text) > MAX_FILE_BYTES or len(text.encode("utf-8", "surrogatepass")) > MAX_FILE_BYTES:
         raise error(Loc(file, 1, 1), f"file larger than {MAX_FILE_BYTES} bytes")
+    source, text = text, compatibility_forms(text)
     _check_text(text, file, diags)
     diags.check()
     stmts = None
@@ -678,6 +714,7 @@ def _parse(text: str, file: str, fast: bool) -> Netlist:
                 if ex.depth(e) > MAX_EXPR_DEPTH:
                     diags.error(e.loc, f"expression nested deeper than {MAX_EXPR_DEPTH} levels")
     diags.check()
+    nl.source = source  # as the user wrote it (compatibility forms included)
     return nl
 
 
