@@ -97,3 +97,57 @@ def test_files_not_in_utf8_say_save_as_utf8(tmp_path, cli):
         assert r.returncode == 2 and "save the file as UTF-8" in r.stderr
     assert "'µ'" in cli("solve", latin).stderr
     assert "UTF-16" in cli("solve", utf16).stderr
+
+
+# --- messages -------------------------------------------------------------------------------
+@pytest.mark.parametrize("fast", [True, False])
+def test_misspelt_keyword_says_did_you_mean(fast):
+    assert _messages("resistr RC (c, gnd) 1k\n", fast) == [(1, 1, "unknown statement 'resistr'; did you mean "
+                                                                  "'resistor'?")]
+    assert "did you mean 'npn'? (keywords are lower case)" in _messages("NPN Q1 (c, b, e) ic=1mA\n", fast)[0][2]
+    msg = _messages("widget W1 (a, gnd) 1k\n", fast)[0][2]
+    assert "a statement starts with a keyword (" in msg and "resistor" in msg and "vcvs" in msg
+
+
+@pytest.mark.parametrize("line, expected", [
+    ("resistor R1 (a, b)\n", "expected a value"),
+    ("resistor R1 a, b 1k\n", "expected a node list such as (a, b)"),
+    ("ground\n", "expected a node name"),
+    ("signal VS (in, gnd) 1 V rs=50\n", "expected an operator (+ - * / ^ ||), ',' before a parameter, end of line"),
+    ("(a, b)\n", "expected a statement keyword ("),
+])
+@pytest.mark.parametrize("fast", [True, False])
+def test_expected_tokens_speak_the_language(fast, line, expected):
+    (msg,) = [m for _, _, m in _messages(line, fast)]
+    assert expected in msg
+    # never a terminal's name, never "or more"
+    for internal in ("BLOCK", "CLAIM", "_KW", "QUANTITY", "NAME", "LPAR", "or more", "$END"):
+        assert internal not in msg
+
+
+def test_reference_node_spelt_in_another_case(cli, netlist):
+    r = cli("solve", netlist("signal VS (in, GND) 1 V\nresistor R1 (in, out) 1k\nload RL (out, GND) 1k\n"))
+    assert r.returncode == 2
+    assert "node names are case sensitive" in r.stderr and "'ground GND'" in r.stderr and "'gnd'" in r.stderr
+    # no gnd anywhere: the message says so
+    r = cli("solve", netlist("signal VS (in, x) 1 V, rs=50\nresistor R1 (in, out) 1k\nload RL (out, x) 1k\n"))
+    assert "no element is connected to the reference node 'gnd'" in r.stderr and "ground NODE" in r.stderr
+    # the signal's node behind its rs is never named
+    assert "inner node" not in r.stderr and "{sig}" not in r.stderr
+    # a circuit that solves anyway still hears about 'GND'
+    r = cli("solve", netlist("signal VS (in, GND) 1 V\nresistor R1 (in, out) 1k\nresistor R2 (out, gnd) 1k\n"
+                             "load RL (out, GND) 1k\n"))
+    assert r.returncode == 0 and "warning: node 'GND' is not the reference node 'gnd'" in r.stderr
+
+
+def test_internal_nodes_are_described_by_their_element():
+    from solver.circuit.topology import describe_node
+    c = solver.loads("signal VS (in, gnd) 1 V, rs=50\nnpn Q1 (c, in, gnd) ic=1mA, rx=100\nload RL (c, gnd) 1k\n")
+    assert describe_node("{sig}", c) == "signal 'VS'"
+    assert describe_node("Q1:b", c) == "npn 'Q1'"
+
+
+@pytest.mark.parametrize("argv", [["--at=-5Hz"], ["--at", "-5Hz"]])
+def test_negative_frequency_says_positive(cli, netlist, argv):
+    r = cli("solve", netlist(CE), *argv)
+    assert r.returncode == 2 and "--at: frequency must be positive" in r.stderr and "not a number" not in r.stderr

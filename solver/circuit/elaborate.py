@@ -389,6 +389,7 @@ class _Elaborator:
         self.n_elements = 0
         self.scopes: list[tuple[str, Scope]] = []  # (block name, instance scope)
         self._pending: list = []  # (block body, instance scope), filled while declaring
+        self.warned_case: set[str] = set()  # 'GND' and the like, warned about once
 
     # structure -----------------------------------------------------------------
     def _split_blocks(self) -> list:
@@ -602,6 +603,12 @@ class _Elaborator:
             return
         kw = s.keyword
         nodes = [tuple(self.res.node(n, scope) for n in g) for g in s.groups]
+        for n in (n for g in s.groups for n in g):
+            if n.name.lower() in ("gnd", "ground") and n.name not in self.ground and n.name not in self.warned_case:
+                self.warned_case.add(n.name)
+                self.diags.warning(n.loc, f"node '{n.name}' is not the reference node 'gnd': node names are case "
+                                   f"sensitive (write gnd, or add 'ground {n.name}' to make it another name for "
+                                   "the reference)")
         if len(nodes[0]) == 2 and nodes[0][0] == nodes[0][1] and kw not in ("signal", "load"):
             # joins nothing; the graph checks then blame this line, not its neighbours
             on = "the reference node" if nodes[0][0] in self.ground else f"node '{nodes[0][0]}'"

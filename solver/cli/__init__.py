@@ -68,9 +68,21 @@ def print_diagnostics(diags, stream=None) -> None:
         print(d.format(sources), file=stream)
 
 
+def _join_negative_values(argv: list[str]) -> list[str]:
+    """``--at -5Hz`` as ``--at=-5Hz``: argparse would take ``-5Hz`` for an option and say
+    nothing useful; joined, the option's own check says what is wrong with the value."""
+    out = []
+    for a in argv:
+        if out and out[-1].startswith("--") and "=" not in out[-1] and a[:1] == "-" and a[1:2].isdigit() | (a[1:2] == "."):
+            out[-1] += "=" + a
+        else:
+            out.append(a)
+    return out
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args = parser.parse_args(_join_negative_values(list(sys.argv[1:] if argv is None else argv)))
     if not getattr(args, "_run", None):
         parser.print_help()
         return 2

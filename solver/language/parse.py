@@ -550,18 +550,63 @@ def _run(start: str, text: str, file: str):
             raise
 
 
-_EXPECT_NAMES = {"NAME": "a name", "QUANTITY": "a number", "_NL": "end of line", "LPAR": "'('",
+_EXPECT_NAMES = {"NAME": "a name", "QUANTITY": "a value", "_NL": "end of line", "LPAR": "'('",
                  "RPAR": "')'", "COMMA": "','", "EQUAL": "'='", "STRING": "a quoted string",
-                 "$END": "end of file", "ADD_OP": "'+' or '-'", "MUL_OP": "'*' or '/'", "POW_OP": "'^'",
-                 "PAR_OP": "'||'", "CLAIM_OP": "'=' or '~'", "DOT": "'.'", "WITHIN": "'within'",
-                 "VALUED_KW": "an element keyword", "CONTROLLED_KW": "an element keyword",
-                 "SENSED_KW": "an element keyword", "DEVICE_KW": "a device keyword"}
+                 "$END": "end of line", "ADD_OP": "'+' or '-'", "MUL_OP": "'*' or '/'", "POW_OP": "'^'",
+                 "PAR_OP": "'||'", "CLAIM_OP": "'=' or '~'", "DOT": "'.'", "WITHIN": "'within'"}
+_OPERATORS = {"ADD_OP", "MUL_OP", "POW_OP", "PAR_OP"}
+STATEMENT_KEYWORDS = tuple(sorted(kw for _, kws, _ in STATEMENTS for kw in kws))
+
+
+def _is_keyword_terminal(t: str) -> bool:
+    """A terminal that starts a statement: a keyword's own (BLOCK) or a keyword class (VALUED_KW)."""
+    return t.endswith("_KW") or t.lower() in STATEMENT_KEYWORDS
 
 
 def _describe(expected) -> str:
-    names = sorted({_EXPECT_NAMES.get(t, t.lower() if t.isupper() and "_" in t else f"'{t}'" if len(t) < 3 else t)
-                    for t in expected})
-    return ", ".join(names[:6]) + (" or more" if len(names) > 6 else "")
+    """What the parser takes here, in the language's words (never a terminal's name), all of it.
+
+    Examples
+    --------
+    >>> _describe({"NAME", "QUANTITY", "LPAR", "ADD_OP"})
+    'a value'
+    >>> _describe({"RPAR", "COMMA"})
+    "')', ','"
+    """
+    exp = set(expected)
+    if any(_is_keyword_terminal(t) for t in exp):
+        return "a statement keyword (" + ", ".join(STATEMENT_KEYWORDS) + ")"
+    words = []
+    if {"NAME", "QUANTITY", "LPAR"} <= exp:
+        exp -= {"NAME", "QUANTITY", "LPAR", "ADD_OP"}
+        words.append("a value")
+    elif exp == {"NAME", "QUANTITY"}:
+        return "a node name"
+    elif exp == {"LPAR"}:
+        return "a node list such as (a, b)"
+    if len(exp & _OPERATORS) >= 2:
+        exp -= _OPERATORS
+        words.append("an operator (+ - * / ^ ||)")
+    if "COMMA" in exp and "EQUAL" not in exp and ("_NL" in exp or "$END" in exp):
+        exp.discard("COMMA")
+        words.append("',' before a parameter")
+    tail = "end of line" if exp & {"_NL", "$END"} else None
+    exp -= {"_NL", "$END"}
+    words += sorted({_EXPECT_NAMES.get(t, f"'{t.lower()}'" if t.isupper() else f"'{t}'") for t in exp})
+    if tail:
+        words.append(tail)
+    return ", ".join(words)
+
+
+def _unknown_keyword(word: str) -> str:
+    """The message for a line that starts with a name no statement has."""
+    import difflib
+    close = difflib.get_close_matches(word, STATEMENT_KEYWORDS, n=1, cutoff=0.6)
+    if word.lower() in STATEMENT_KEYWORDS:
+        return f"unknown statement '{word}'; did you mean '{word.lower()}'? (keywords are lower case)"
+    if close:
+        return f"unknown statement '{word}'; did you mean '{close[0]}'?"
+    return f"unknown statement '{word}'; a statement starts with a keyword ({', '.join(STATEMENT_KEYWORDS)})"
 
 
 def _syntax_message(e) -> str:
@@ -582,6 +627,8 @@ def _syntax_message(e) -> str:
                 expected = ip.accepts() or expected
             except Exception:  # noqa: BLE001 - the plain expected set is still right, only wider
                 pass
+        if tok.type == "NAME" and any(_is_keyword_terminal(t) for t in expected):
+            return _unknown_keyword(str(tok))
         return f"unexpected {what}; expected {_describe(expected)}"
     return "syntax error"
 

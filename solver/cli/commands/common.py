@@ -17,20 +17,28 @@ def option_quantity(text: str, option: str, units: tuple, unit_hint: str) -> flo
 
     Bad text is bad input (exit 2) naming the option; None in ``units`` admits a bare number.
     """
-    try:
-        value, d = parse_quantity(text.strip())
+    text = text.strip()
+    sign = -1.0 if text.startswith("-") else 1.0
+    try:  # a leading sign is read here (the netlist's numbers take it as an operator)
+        value, d = parse_quantity(text[1:].lstrip() if text[:1] in "+-" and text[1:2] else text)
     except UnitError as e:
         raise error(None, f"{option}: {e}") from None
     if d not in units:
         raise error(None, f"{option}: {unit_hint}")
-    return value
+    return sign * value
 
 
 def frequency(text: str, option: str = "--at") -> float:
-    """Parse ``10kHz``, ``1e3``, ``2.2 MHz`` for an option; bad text is bad input (exit 2)."""
+    """Parse ``10kHz``, ``1e3``, ``2.2 MHz`` for an option; bad text is bad input (exit 2).
+
+    0 is DC; a negative frequency is refused in so many words.
+    """
     value = option_quantity(text, option, (None, HERTZ), "a frequency is in Hz")
-    if not (value >= 0) or not math.isfinite(value):
-        raise error(None, f"{option}: a frequency is a non-negative number")
+    if value < 0:
+        dc = "; 0 means DC" if option == "--at" else ""
+        raise error(None, f"{option}: frequency must be positive (got {text.strip()}{dc})")
+    if not math.isfinite(value):
+        raise error(None, f"{option}: a frequency is a finite number")
     return value
 
 
