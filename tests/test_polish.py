@@ -151,3 +151,70 @@ def test_internal_nodes_are_described_by_their_element():
 def test_negative_frequency_says_positive(cli, netlist, argv):
     r = cli("solve", netlist(CE), *argv)
     assert r.returncode == 2 and "--at: frequency must be positive" in r.stderr and "not a number" not in r.stderr
+
+
+# --- options and exit codes -----------------------------------------------------------------
+# a CE stage whose collector resistor is far too large: the transistor saturates (from memory:
+# I_C * RC would exceed the supply, so V_CE collapses to a few tens of millivolts)
+SATURATED = """\
+supply VBAT (vcc, gnd) 12 V
+signal VP (pick, gnd) 5 mV, rs=2k2
+capacitor CIN (pick, b) 4u7
+resistor RB1 (vcc, b) 68k
+resistor RB2 (b, gnd) 15k
+npn Q1 (c, b, e) beta=180, va=90 V, is=5f
+resistor RC (vcc, c) 470k
+resistor RE (e, gnd) 1k2
+capacitor CE (e, gnd) 470u
+capacitor COUT (c, out) 10u
+load RL (out, gnd) 22k
+claim Av ~ -(RC || RL || Q1.ro)*Q1.gm within 5%
+"""
+
+
+def test_bias_reports_saturation_as_a_warning_and_solve_refuses(cli, netlist):
+    p = netlist(SATURATED)
+    r = cli("bias", p)
+    assert r.returncode == 0 and "warning: Q1 is in saturation" in r.stderr and "error:" not in r.stderr
+    r = cli("solve", p)
+    assert r.returncode == 2 and "error: Q1 is in saturation" in r.stderr
+
+
+@pytest.mark.parametrize("cmd", [["solve"], ["derive", "Av"], ["check"], ["sweep", "--from", "10Hz", "--to", "1MHz"],
+                                 ["twoport", "--at", "1kHz"]])
+def test_every_use_hint_works_on_the_command_that_printed_it(cli, netlist, cmd):
+    import re
+    p = netlist(SATURATED)
+    r = cli(cmd[0], p, *cmd[1:])
+    assert r.returncode == 2
+    hints = re.findall(r"use (--[a-z-]+)", r.stderr)
+    assert hints == ["--force"]
+    r = cli(cmd[0], p, *cmd[1:], *hints)
+    assert r.returncode in (0, 1) and "unrecognized arguments" not in r.stderr  # check: 1 = the claim fails
+    assert "outside its amplifying region" in r.stderr
+
+
+@pytest.mark.parametrize("cmd, opt", [(["sweep", "--from", "10Hz", "--to", "1MHz"], "--csv"),
+                                      (["twoport", "--from", "1kHz", "--to", "1MHz"], "--touchstone")])
+def test_overwrite_replaces_files_and_force_does_not(cli, netlist, tmp_path, cmd, opt):
+    out = tmp_path / "out.txt"
+    out.write_text("user data")
+    p = netlist(CE.replace("load RL (c, gnd) 10k", "capacitor CO (c, o) 1u\nload RL (o, gnd) 10k"))
+    r = cli(cmd[0], p, *cmd[1:], opt, out)
+    assert r.returncode == 2 and "use --overwrite" in r.stderr and out.read_text() == "user data"
+    assert cli(cmd[0], p, *cmd[1:], opt, out, "--force").returncode == 2 and out.read_text() == "user data"
+    assert cli(cmd[0], p, *cmd[1:], opt, out, "--overwrite").returncode == 0 and out.read_text() != "user data"
+
+
+def test_output_files_honour_the_umask(tmp_path):
+    from solver.cli.commands.common import write_file
+    # POSIX open(2): a new file's mode is 0666 & ~umask (from memory)
+    old = os.umask(0o027)
+    try:
+        write_file(tmp_path / "a.csv", "x")
+        os.umask(0o002)
+        write_file(tmp_path / "b.csv", "x")
+    finally:
+        os.umask(old)
+    assert (tmp_path / "a.csv").stat().st_mode & 0o777 == 0o640
+    assert (tmp_path / "b.csv").stat().st_mode & 0o777 == 0o664

@@ -22,7 +22,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from solver.analysis import scenarios
-from solver.analysis.bias import BiasError, BiasResult, bias_circuit, biased, cautions, needs_bias_solve, solve_bias
+from solver.analysis.bias import (BiasError, BiasResult, bias_circuit, biased, cautions, needs_bias_solve,
+                                  region_problems, region_text, solve_bias)
 from solver.bulk import paused_gc
 from solver.circuit import topology
 from solver.circuit.elaborate import elaborate
@@ -135,6 +136,15 @@ def _unbiased(c: Circuit) -> list[Diagnostic]:
     return out
 
 
+def _region_warnings(c: Circuit, res: BiasResult, purpose: str) -> list[Diagnostic]:
+    """A bias-solved transistor outside its amplifying region, as a warning at its line: a finding
+    of the bias check; for a small-signal analysis only reached with ``force``."""
+    why = ("the small-signal commands (solve, sweep...) refuse it without --force" if purpose == "bias" else
+           "the small-signal results do not describe this circuit (analysed because of --force)")
+    return [Diagnostic("warning", d.loc, f"{region_text(d, res.devices[d.name])}: outside its amplifying "
+                       f"region; {why}") for d in region_problems(c, res)]
+
+
 def prepare(c: Circuit, purpose: str = "ports", view: str = "ac", force: bool = False) -> Prepared:
     """Run the input checks and the bias solve that an analysis of ``purpose`` needs.
 
@@ -194,6 +204,7 @@ def prepare(c: Circuit, purpose: str = "ports", view: str = "ac", force: bool = 
     if p.bias is not None:
         p.warnings += [w for w in p.bias.warnings if w not in p.warnings]
         p.notes = list(p.bias.notes)
+        p.warnings += _region_warnings(c, p.bias, purpose)
     if purpose == "bias":
         return p
     errors = _unbiased(p.circuit)

@@ -22,6 +22,8 @@ def add_arguments(p) -> None:
     p.add_argument("file", help="netlist file (.pw)")
     p.add_argument("--at", metavar="FREQ", help="analysis frequency (default as solve: the detected midband; DC without reactive parts)")
     p.add_argument("--json", action="store_true", help="print JSON")
+    from solver.cli.commands.common import add_force
+    add_force(p)
 
 
 def _z(z: complex) -> str:
@@ -65,7 +67,7 @@ def run(args) -> int:
     from solver.diagnostics import error
     from solver.output.report import CAUTION, eng
     at = frequency(args.at) if args.at is not None else None
-    p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac")
+    p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac", args.force)
     c = p.circuit
     print_warnings(p.warnings)
     if not c.claims:

@@ -48,6 +48,8 @@ def add_arguments(p) -> None:
                    help="write bias-form devices' gm, rpi, ro in terms of ic, beta, va and V_T")
     p.add_argument("--latex", action="store_true", help="print LaTeX (\\parallel for ||)")
     p.add_argument("--json", action="store_true", help="print JSON")
+    from solver.cli.commands.common import add_force
+    add_force(p)
 
 
 def tolerance(text: str) -> float:
@@ -70,7 +72,7 @@ def run(args) -> int:
     from solver.cli.commands.common import emit_json, frequency, print_warnings
     from solver.diagnostics import error
     at = frequency(args.at) if args.at is not None else None
-    p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac")  # the same input checks as solve
+    p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac", args.force)  # the same input checks as solve
     c = p.circuit
     print_warnings(p.warnings)
     if args.quantity == "all":

@@ -20,8 +20,8 @@ def add_arguments(p) -> None:
     p.add_argument("--at", metavar="FREQ", help="analysis frequency, e.g. 10kHz (default: the detected midband "
                    "frequency; DC for a circuit without capacitors or inductors)")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
-    p.add_argument("--force", action="store_true", help="compute port quantities even when a bias-solved "
-                   "transistor is outside its amplifying region (the output warns)")
+    from solver.cli.commands.common import add_force
+    add_force(p)
     p.add_argument("--symbolic", action="store_true", help="also show each port quantity as a formula in the "
                    "circuit's symbols when the circuit is small enough to do so quickly (loads sympy: "
                    "about half a second more; 'portwise derive' does any size)")

@@ -29,7 +29,9 @@ def add_arguments(p) -> None:
     g = p.add_mutually_exclusive_group()
     g.add_argument("--points", type=int, metavar="N", help="log-spaced sweep points in all")
     g.add_argument("--per-decade", type=int, metavar="N", help="sweep points per decade (default 20)")
-    p.add_argument("--force", action="store_true", help="replace an output file that exists")
+    from solver.cli.commands.common import add_force, add_overwrite
+    add_overwrite(p)
+    add_force(p)
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
 
 
@@ -113,7 +115,7 @@ def run(args) -> int:
     from solver.analysis.twoport import TwoPortError, s_sweep, two_port
     from solver.diagnostics import error
     from solver.output.touchstone import touchstone
-    from solver.cli.commands.common import emit_json, frequency, print_warnings, write_file
+    from solver.cli.commands.common import emit_json, frequency, print_warnings, refuse_existing, write_file
     z0 = _z0(args.z0)
     sweep = args.f_from is not None or args.f_to is not None
     if args.touchstone and not (args.f_from and args.f_to):
@@ -131,7 +133,8 @@ def run(args) -> int:
             raise error(None, "--points: between 2 and 1000000")
         if args.per_decade is not None and not 1 <= args.per_decade <= 100_000:
             raise error(None, "--per-decade: between 1 and 100000")
-    p = prepare(load(args.file), "twoport", "dc" if at == 0 else "ac")  # faults inside the network, named first
+    refuse_existing((args.touchstone,), args.overwrite)
+    p = prepare(load(args.file), "twoport", "dc" if at == 0 else "ac", args.force)  # faults inside the network, named first
     c = p.circuit
     try:
         tp = two_port(c, at, z0) if at is not None else None
@@ -149,7 +152,7 @@ def run(args) -> int:
         text = touchstone(freqs, s, z0, [f"{c.title or Path(c.file).stem}: 2-port S-parameters from portwise",
                                          f"port 1 = ({a}, {b}) signal removed; port 2 = ({p}, {q}) load removed",
                                          "small-signal estimates, not a safety assessment"])
-        write_file(args.touchstone, text, args.force)
+        write_file(args.touchstone, text, args.overwrite)
     if tp is None:
         return 0
     if args.json:
