@@ -218,3 +218,83 @@ def test_output_files_honour_the_umask(tmp_path):
         os.umask(old)
     assert (tmp_path / "a.csv").stat().st_mode & 0o777 == 0o640
     assert (tmp_path / "b.csv").stat().st_mode & 0o777 == 0o664
+
+
+# --- midband --------------------------------------------------------------------------------
+HYDRO = "circuits/hydrophone_ce_stage.pw"
+
+
+def test_solve_midband_shorts_coupling_opens_device_capacitances(cli):
+    from tests.conftest import ROOT
+    r = solver.solve(ROOT / HYDRO, midband=True)
+    assert r.midband.shorted == ["CC1", "CE", "CC2"] and r.midband.opened == ["Q1.cpi", "Q1.cmu"]
+    q, d = r.quantities, r.circuit.devices[0].ss
+    # CE stage with rx, emitter bypassed: Av = -gm rπ/(rπ + rx) (ro || RC || RL)
+    # (Sedra & Smith, Microelectronic Circuits, 7th ed., section 7.6 (CE amplifier), from memory)
+    rc, rl = 4.7e3, 10e3  # the netlist's RC and RL
+    par = 1 / (1 / d["ro"] + 1 / rc + 1 / rl)
+    assert q["Av"].imag == 0 and q["Av"].real == pytest.approx(-d["gm"] * d["rpi"] / (d["rpi"] + d["rx"]) * par,
+                                                               rel=1e-12)
+    # consistency: the flat top of the full circuit's sweep is within 0.1 % of the midband circuit's
+    full = solver.solve(ROOT / HYDRO)
+    assert abs(full.quantities["Gv"]) == pytest.approx(abs(q["Gv"]), rel=1e-3)
+    out = cli("solve", HYDRO, "--midband")
+    assert out.returncode == 0 and "CC1" in out.stdout and "shorted (coupling or bypass)" in out.stdout
+    assert "opened (device)" in out.stdout
+    j = json.loads(cli("solve", HYDRO, "--midband", "--json").stdout)
+    assert j["midband"]["shorted"] == ["CC1", "CE", "CC2"] and "quantities" in j
+
+
+def test_derive_midband_gives_the_midband_formula(cli):
+    r = cli("derive", "circuits/contact_pickup_preamp.pw", "Av", "--midband")
+    assert r.returncode == 0
+    # CE stage, emitter bypassed: Av = -gm (ro || RC || RL) (Sedra & Smith, 7th ed., section 7.6, from memory)
+    assert "Av = -Q1.gm*(Q1.ro || RC || RL)" in r.stdout
+    assert "CIN" in r.stdout and "shorted" in r.stdout
+    j = json.loads(cli("derive", "circuits/contact_pickup_preamp.pw", "Av", "--midband", "--json").stdout)
+    assert j["expression"] == "-Q1.gm*(Q1.ro || RC || RL)" and j["midband"]["shorted"] == ["CIN", "CE", "COUT"]
+
+
+def test_midband_classifies_a_small_wiring_capacitor_as_open():
+    # RC low-pass after a coupling capacitor: tau(C1) = (rs + R1) C1 = 20 ms, tau(C2) = (rs || R1) C2 = 0.5 µs,
+    # the band's middle lies between 1/(2π 20 ms) = 8 Hz and 1/(2π 0.5 µs) = 318 kHz (from memory)
+    c = solver.loads("signal VS (a, gnd) 1 V, rs=1k\ncapacitor C1 (a, b) 10u\n"
+                     "resistor R1 (b, gnd) 1k\ncapacitor C2 (b, gnd) 1n\noutput (b, gnd)\n")
+    r = solver.solve(c, midband=True)
+    items = {i.name: i for i in r.midband.items}
+    assert items["C1"].tau == pytest.approx(20e-3) and items["C1"].action == "shorted"
+    assert items["C2"].tau == pytest.approx(1e-6) and items["C2"].action == "opened"
+    assert r.quantities["Gv"].real == pytest.approx(0.5)  # R1/(rs + R1)
+
+
+# --- the Python API -------------------------------------------------------------------------
+@pytest.mark.parametrize("fn, args, cmd", [
+    ("solve", {}, ["solve"]),
+    ("bias", {}, ["bias"]),
+    ("derive", {"quantity": "Av"}, ["derive", "Av"]),
+    ("check", {}, ["check"]),
+    ("sweep", {"start": 10.0, "stop": 1e6, "points": 21}, ["sweep", "--from", "10", "--to", "1e6", "--points", "21"]),
+    ("twoport", {"at": 1e3}, ["twoport", "--at", "1kHz"]),
+])
+def test_api_function_for_every_command(cli, fn, args, cmd):
+    from tests.conftest import ROOT
+    path = ROOT / "circuits/contact_pickup_preamp.pw"
+    res = getattr(solver, fn)(path, **args)
+    d = res.to_dict()
+    assert isinstance(res.to_json(), str) and json.loads(res.to_json()) == json.loads(json.dumps(d))
+    assert isinstance(res.warnings, list)
+    printed = json.loads(cli(cmd[0], path, *cmd[1:], "--json").stdout)
+    for key in d:
+        if key != "notes":
+            assert printed[key] == json.loads(json.dumps(d))[key], key
+    # no note speaks of a command-line option from inside the API
+    for note in getattr(res, "notes", []) + d.get("notes", []) + d.get("summary", {}).get("notes", []):
+        assert "--" not in note
+
+
+def test_api_results_keep_the_warnings_the_cli_prints(cli, netlist):
+    p = netlist(CE + "resistor R2 (in, in) 1k\n")
+    res = solver.solve(p)
+    assert [w.message for w in res.warnings] == [w.message for w in solver.derive(p, "Av").warnings]
+    assert "R2 has both ends on node 'in'" in res.warnings[0].message
+    assert res.warnings[0].message in cli("solve", p).stderr

@@ -643,7 +643,7 @@ def bias_circuit(c: Circuit, force: bool = False) -> tuple[Circuit, BiasResult]:
                           for d in bad])
     for d in bad:
         res.notes.append(f"WARNING: {region_text(d, res.devices[d.name])}: outside its amplifying region, the "
-                         "small-signal results below do not describe this circuit (computed because of --force).")
+                         "small-signal results below do not describe this circuit (computed because forced).")
     return biased(c, res), res
 
 

@@ -140,7 +140,7 @@ def _region_warnings(c: Circuit, res: BiasResult, purpose: str) -> list[Diagnost
     """A bias-solved transistor outside its amplifying region, as a warning at its line: a finding
     of the bias check; for a small-signal analysis only reached with ``force``."""
     why = ("the small-signal commands (solve, sweep...) refuse it without --force" if purpose == "bias" else
-           "the small-signal results do not describe this circuit (analysed because of --force)")
+           "the small-signal results do not describe this circuit (analysed because forced)")
     return [Diagnostic("warning", d.loc, f"{region_text(d, res.devices[d.name])}: outside its amplifying "
                        f"region; {why}") for d in region_problems(c, res)]
 
@@ -242,8 +242,8 @@ def analysis_frequency(c: Circuit, at: float | None = None) -> tuple[float, list
     from solver.analysis.frequency import midband_frequency
     fm = midband_frequency(c)
     if fm is None:
-        return f, [f"no --at given and no flat top found: evaluated at {_hz(f)}"]
-    return fm, [f"no --at given: evaluated at the detected midband frequency, {_hz(fm)} "
+        return f, [f"no analysis frequency given and no flat top found: evaluated at {_hz(f)}"]
+    return fm, [f"no analysis frequency given: evaluated at the detected midband frequency, {_hz(fm)} "
                 "(the flat top of the main gain)"]
 
 

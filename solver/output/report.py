@@ -68,11 +68,16 @@ def solve_report(result, symbolic: dict | None = None) -> str:
     out = []
     out.append(c.title or c.file)
     f = result.frequency_hz
-    if f == 0 and not is_reactive(c):
+    midband = getattr(result, "midband", None)
+    if midband is not None:
+        out.append("small-signal analysis at midband: coupling and bypass capacitors shorted, device and "
+                   "wiring capacitances opened")
+        out.extend(midband.lines())
+    elif f == 0 and not is_reactive(c):
         out.append("small-signal analysis: no capacitors or inductors, the results hold at any frequency")
     else:
         out.append(f"small-signal analysis at {'DC' if f == 0 else eng(f, 'Hz')}")
-    out.extend(result.notes)
+    out.extend(n for n in result.notes if midband is None or n != midband.note())
     if c.devices:
         out.append("")
         out.append("devices")

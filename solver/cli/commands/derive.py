@@ -50,6 +50,8 @@ def add_arguments(p) -> None:
     p.add_argument("--json", action="store_true", help="print JSON")
     from solver.cli.commands.common import add_force
     add_force(p)
+    p.add_argument("--midband", action="store_true", help="derive from the midband circuit: coupling and bypass "
+                   "capacitors shorted, device and wiring capacitances opened (the classification is listed)")
 
 
 def tolerance(text: str) -> float:
@@ -75,6 +77,13 @@ def run(args) -> int:
     p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac", args.force)  # the same input checks as solve
     c = p.circuit
     print_warnings(p.warnings)
+    midband = None
+    if args.midband:  # the midband circuit goes down the same derive path
+        from solver.analysis.midband import check_midband, midband_circuit
+        c, midband = midband_circuit(c)
+        if check_midband(c):
+            raise p.fail(check_midband(c))
+        at = 0.0
     if args.quantity == "all":
         qs = scenarios.quantities(c)
     else:
@@ -101,8 +110,13 @@ def run(args) -> int:
                                     "error_at_frequency": d.pruned.error_at_f,
                                     "error_bound_at_frequency": _finite(d.pruned.bound_at_f)}
             items.append(item)
-        emit_json(items[0] if len(items) == 1 else {"quantities": items})
+        obj = items[0] if len(items) == 1 else {"quantities": items}
+        if midband is not None:
+            obj["midband"] = midband.to_dict()
+        emit_json(obj)
         return 0
+    if midband is not None:
+        print("\n".join(midband.lines()))
     for d in results:
         text = d.latex if args.latex else d.plain
         print(f"{d.quantity} = {text}")

@@ -47,20 +47,9 @@ def _z0(text: str) -> float:
     return v
 
 
-def _matrix_json(m):
-    if m is None:
-        return None
-    return [[{"re": float(m[i, j].real), "im": float(m[i, j].imag)} for j in range(2)] for i in range(2)]
-
-
 def to_json(tp) -> dict:
-    from solver.analysis.twoport import NAMES
-    out = {"frequency_hz": tp.frequency_hz, "z0": tp.z0,
-           "ports": {"1": list(tp.ports[0]), "2": list(tp.ports[1])}}
-    for name in NAMES:
-        out[name] = _matrix_json(tp.matrices.get(name))
-    out["reasons"] = dict(tp.reasons)
-    return out
+    from solver.output.twoportjson import twoport_json
+    return twoport_json(tp)
 
 
 def _cell(z: complex, unit: str) -> str:
