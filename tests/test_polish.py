@@ -298,3 +298,83 @@ def test_api_results_keep_the_warnings_the_cli_prints(cli, netlist):
     assert [w.message for w in res.warnings] == [w.message for w in solver.derive(p, "Av").warnings]
     assert "R2 has both ends on node 'in'" in res.warnings[0].message
     assert res.warnings[0].message in cli("solve", p).stderr
+
+
+# --- output ---------------------------------------------------------------------------------
+def test_plot_corner_labels_stay_off_the_curve_and_impedance_is_in_ohms():
+    import numpy as np
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from solver.output.plot import figure
+    f = np.logspace(0, 6, 200)
+    # a band-pass whose flat top reaches the top of the panel: 1st-order high- and low-pass,
+    # corners 10 Hz and 100 kHz (scipy.signal would give the same; closed form from memory)
+    h = (1j * f / 10) / (1 + 1j * f / 10) / (1 + 1j * f / 1e5)
+    fig = figure(f, h, "t", "Gv", {"f_low": 10.0, "f_high": 1e5}, 0.0)
+    FigureCanvasAgg(fig).draw()
+    r = fig.canvas.get_renderer()
+    ax_m = fig.axes[0]
+    panel = ax_m.get_window_extent(r)
+    texts = [t for t in fig.findobj(lambda a: hasattr(a, "get_text") and "f_L" in str(a.get_text()))]
+    assert texts, "the corner labels are drawn"
+    for t in texts:  # every label lies above the plotting area, where the curve is
+        assert t.get_window_extent(r).y0 >= panel.y1 - 1
+    # an impedance: Ω on a log axis, never "dB" of ohms
+    fz = figure(f, 1e3 * (1 + 1j * f / 1e3), "t", "Rin")
+    assert fz.axes[0].get_yscale() == "log" and fz.axes[0].get_ylabel() == "|Rin| (Ω)"
+    assert fig.axes[0].get_ylabel() == "|Gv| (dB)"
+
+
+def test_complex_values_one_style_and_rounding_noise_is_zero():
+    from solver.output.report import complex_text, phase_deg
+    assert complex_text(complex(2300, -133), "Ω") == "2.3 - j0.133 kΩ"
+    # noise relative to the matrix's largest entry: 4.2e-13 beside 1e4 is 0
+    assert complex_text(complex(4.235e-13, 1.2), "Ω", scale=1e4) == "j1.2 Ω"
+    assert complex_text(complex(4.235e-13, 0.0), "Ω", scale=1e4) == "0 Ω"
+    # phases in (-180°, 180°]: a negative real is +180° (numpy.angle gives -180° for -1-0j)
+    import numpy as np
+    assert np.degrees(np.angle(complex(-1, -0.0))) == -180.0 and phase_deg(complex(-1, -0.0)) == 180.0
+
+
+def test_twoport_report_shows_noise_as_zero(cli):
+    # a common-source stage without cgd has no reverse transmission: z12 = y12 = 0 exactly (Gray,
+    # Hurst, Lewis, Meyer, 5th ed., section 1.5 (unilateral small-signal model), from memory), while
+    # the float solve leaves ~1e-13 Ω beside entries of 1e7 Ω
+    import re
+    r = cli("twoport", "circuits/hydrophone_cs_stage.pw", "--at", "1kHz")
+    assert r.returncode == 0
+    assert re.search(r"z12  0 Ω", r.stdout) and re.search(r"y12  0 S", r.stdout)
+    assert not re.search(r"\de-(1\d|[2-9]\d)", r.stdout) and "fΩ" not in r.stdout  # no 3.657e-20 S, no 92.48 fΩ
+
+
+def test_gains_near_the_real_axis_print_as_signed_reals_with_one_note(cli):
+    r = cli("solve", HYDRO)
+    out = r.stdout
+    assert "  Gv    -79.35 V/V   37.99 dB" in out  # -179.9° at midband (the sweep's figure)
+    assert out.count("phase within 0.5° of 0° or 180°") == 1
+    assert "∠ -180" not in out
+
+
+def test_infinite_ideal_gain_says_why_and_no_repeated_rows(cli, netlist):
+    r = cli("solve", netlist("signal VS (a, gnd) 1 V\nopamp U1 (o, a, o)\nload RL (o, gnd) 1k\n"))
+    ai = [l for l in r.stdout.splitlines() if l.strip().startswith("Ai")][0]
+    assert "∞" in ai and "ideal op-amp" in ai
+    r = cli("solve", netlist("signal VS (a, gnd) 1 V\nresistor R1 (a, gnd) 1G\nvcvs E1 (o, gnd) (a, gnd) 2\n"
+                             "resistor R2 (o, gnd) 1k\noutput (o, gnd)\n"))
+    rows = [l.split()[0] for l in r.stdout.splitlines() if l.startswith("  ")]
+    assert "Av" not in rows and "Gv" not in rows and "Av," in rows
+    assert "Av, Gv, Gvo = Avo (no load and no source resistance)" in r.stdout
+    j = json.loads(cli("solve", netlist("signal VS (a, gnd) 1 V\nresistor R1 (a, gnd) 1G\n"
+                                        "vcvs E1 (o, gnd) (a, gnd) 2\nresistor R2 (o, gnd) 1k\noutput (o, gnd)\n"),
+                       "--json").stdout)
+    assert set(j["quantities"]) >= {"Av", "Gv", "Gvo"}  # the JSON keeps every key
+
+
+def test_cautions_only_when_a_supply_exceeds_the_extra_low_voltage_limits(cli, netlist):
+    from solver.output.cautions import CAUTION
+    # IEC 61140 extra-low voltage: 120 V ripple-free d.c. (from memory)
+    low = cli("solve", "circuits/mic_preamp.pw")
+    assert CAUTION not in low.stdout and "caution" not in low.stdout
+    high = cli("bias", netlist(SATURATED.replace("12 V", "300 V")))
+    assert "caution: supply VBAT is 300 V" in high.stdout and CAUTION in high.stdout
+    assert CAUTION.split(".")[0] in cli("--help").stdout.replace("\n", " ")
+    assert CAUTION.split(".")[0] in cli("sweep", "--help").stdout.replace("\n", " ")

@@ -12,6 +12,7 @@ import importlib
 import sys
 
 from solver.diagnostics import InputError
+from solver.output.cautions import CAUTION
 
 COMMANDS = ("solve", "derive", "check", "bias", "sweep", "twoport")
 
@@ -21,7 +22,12 @@ examples:
   portwise solve circuits/mic_preamp.pw --at 10kHz --json
 
 exit codes: 0 done, 1 the analysis ran but a verdict failed (claims), 2 bad input.
-The netlist language is described in grammar/README.md."""
+The netlist language is described in grammar/README.md.
+
+--force (every analysing command): analyse a bias-solved transistor outside its
+amplifying region. --overwrite (every command that writes a file): replace it.
+
+""" + CAUTION
 
 
 class _Parser(argparse.ArgumentParser):
@@ -44,8 +50,9 @@ def build_parser() -> argparse.ArgumentParser:
             mod = importlib.import_module(f"solver.cli.commands.{name}")
         except ModuleNotFoundError:
             continue
+        epilog = getattr(mod, "EPILOG", None)
         sp = sub.add_parser(name, help=mod.HELP, description=mod.DESCRIPTION,
-                            epilog=getattr(mod, "EPILOG", None),
+                            epilog=(epilog + "\n\n" if epilog else "") + CAUTION,
                             formatter_class=argparse.RawDescriptionHelpFormatter)
         sp.add_argument("--debug", action="store_true", help="show a traceback on internal errors")
         mod.add_arguments(sp)

@@ -65,13 +65,13 @@ def _from_bias(d) -> bool:
 
 def bias_report(c: Circuit, res) -> str:
     """The full ``portwise bias`` text: title, table, warnings, cautions."""
-    from solver.output.report import CAUTION, safety_notes
+    from solver.output.report import closing_lines
     out = [c.title or c.file, ""]
     out.extend(bias_lines(c, res))
-    notes = list(res.notes) + safety_notes(c)
-    out.append("")
-    out.extend(notes)
-    out.append(CAUTION)
+    if res.notes:
+        out.append("")
+        out.extend(res.notes)
+    out.extend(closing_lines(c, res.notes))
     return "\n".join(out)
 
 

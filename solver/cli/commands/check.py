@@ -27,10 +27,8 @@ def add_arguments(p) -> None:
 
 
 def _z(z: complex) -> str:
-    from solver.output.report import eng
-    if z.imag == 0 or abs(z.imag) <= 1e-9 * abs(z):
-        return eng(z.real)
-    return f"{eng(z.real)}{z.imag:+.4g}j"
+    from solver.output.report import complex_text
+    return complex_text(z)
 
 
 def table(verdicts) -> str:
@@ -65,7 +63,7 @@ def run(args) -> int:
     from solver.analysis.symbolic.claims import check_claims
     from solver.cli.commands.common import emit_json, frequency, print_warnings
     from solver.diagnostics import error
-    from solver.output.report import CAUTION, eng
+    from solver.output.report import closing_lines, eng
     at = frequency(args.at) if args.at is not None else None
     p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac", args.force)
     c = p.circuit
@@ -86,5 +84,6 @@ def run(args) -> int:
         print(table(verdicts))
         print("")
         print(("all claims hold." if ok else f"{sum(not v.holds for v in verdicts)} claim(s) fail."))
-        print(CAUTION)
+        for line in closing_lines(c):
+            print(line)
     return 0 if ok else 1

@@ -52,17 +52,15 @@ def to_json(tp) -> dict:
     return twoport_json(tp)
 
 
-def _cell(z: complex, unit: str) -> str:
-    from solver.output.report import eng
-    if abs(z.imag) <= 1e-9 * abs(z):
-        return eng(z.real, unit)
-    return f"{eng(z.real)} {'+' if z.imag >= 0 else '-'} j{eng(abs(z.imag))} {unit}".rstrip()
+def _cell(z: complex, unit: str, scale: float | None = None) -> str:
+    from solver.output.report import complex_text
+    return complex_text(z, unit, scale)
 
 
 def text_report(c, tp) -> str:
     from pathlib import Path
 
-    from solver.output.report import CAUTION, eng, safety_notes
+    from solver.output.report import closing_lines, eng, phase_deg
     from solver.analysis.twoport import NAMES, UNITS
     titles = {"z": "z (open-circuit impedance)", "y": "y (short-circuit admittance)", "h": "h (hybrid)",
               "g": "g (inverse hybrid)", "abcd": "ABCD (transmission; I2 out of port 2)",
@@ -80,7 +78,11 @@ def text_report(c, tp) -> str:
             continue
         u = UNITS[name]
         labels = ("A", "B", "C", "D") if name == "abcd" else tuple(f"{name}{k}" for k in ("11", "12", "21", "22"))
-        cells = [_cell(m[i, j], u[2 * i + j]) for i in range(2) for j in range(2)]
+        # rounding noise relative to the matrix's largest entry (in its own units: like entries only)
+        scale = max(abs(m[i, j]) for i in range(2) for j in range(2) if u[2 * i + j] == u[0]) if name != "abcd" \
+            else None
+        cells = [_cell(m[i, j], u[2 * i + j], scale if u[2 * i + j] == u[0] else None)
+                 for i in range(2) for j in range(2)]
         w = max(len(x) for x in cells)
         for i in range(2):
             out.append(f"  {labels[2 * i]:<4} {cells[2 * i]:<{w}}   {labels[2 * i + 1]:<4} {cells[2 * i + 1]}")
@@ -89,11 +91,10 @@ def text_report(c, tp) -> str:
             for i, j in ((0, 0), (1, 0), (0, 1), (1, 1)):
                 z = m[i, j]
                 db = f"{20 * math.log10(abs(z)):.2f} dB" if z != 0 else "-inf dB"
-                out.append(f"  |S{i + 1}{j + 1}| {db} ∠ {math.degrees(math.atan2(z.imag, z.real)):.1f}°")
+                out.append(f"  |S{i + 1}{j + 1}| {db} ∠ {round(phase_deg(z), 1) + 0.0:.1f}°")  # never "-0.0°"
         out.append("")
-    out.extend(safety_notes(c))
-    out.append(CAUTION)
-    return "\n".join(out)
+    out.extend(closing_lines(c))
+    return "\n".join(out).rstrip("\n")
 
 
 def run(args) -> int:
