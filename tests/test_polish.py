@@ -378,3 +378,12 @@ def test_cautions_only_when_a_supply_exceeds_the_extra_low_voltage_limits(cli, n
     assert "caution: supply VBAT is 300 V" in high.stdout and CAUTION in high.stdout
     assert CAUTION.split(".")[0] in cli("--help").stdout.replace("\n", " ")
     assert CAUTION.split(".")[0] in cli("sweep", "--help").stdout.replace("\n", " ")
+
+
+def test_bias_report_never_shows_internal_nodes(cli, netlist):
+    p = netlist("supply VCC (vcc, gnd) 12 V\nsignal VS (in, gnd) 1 mV, rs=1k\ncapacitor C1 (in, b) 10u\n"
+                "resistor RB (vcc, b) 1M\nnpn Q1 (c, b, gnd) beta=100, rx=100\nresistor RC (vcc, c) 4k7\n"
+                "opamp U1 (o, c, o) gain=1e5, fp=10\nload RL (o, gnd) 10k\n")
+    r = cli("bias", p)
+    assert r.returncode == 0 and "U1:pole" not in r.stdout and "{sig}" not in r.stdout and "Q1:" not in r.stdout
+    assert "    vcc" in r.stdout

@@ -31,9 +31,11 @@ def bias_lines(c: Circuit, res) -> list[str]:
     """
     how = "Newton–Raphson" if res.method == "newton" else f"Newton–Raphson with {res.method}"
     out = [f"DC operating point ({how}, {res.iterations} iteration{'s' if res.iterations != 1 else ''})"]
-    width = max((len(n) for n in res.nodes), default=1)
+    from solver.circuit.topology import is_internal
+    shown = {n: v for n, v in res.nodes.items() if not is_internal(n)}  # nodes the user wrote (the JSON keeps all)
+    width = max((len(n) for n in shown), default=1)
     out.append("  node voltages")
-    for n, v in res.nodes.items():
+    for n, v in shown.items():
         out.append(f"    {n:<{width}}  {eng(v, 'V')}")
     if c.devices:
         out.append("  devices")
