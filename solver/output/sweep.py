@@ -63,7 +63,7 @@ def _pz_lines(v: np.ndarray) -> list[str]:
             lines.append(f"  {'0':>26}   {'0 Hz':>12}")
             continue
         q = fr.q_factor(p)
-        rad = f"{p.real:.5g}" + (f" {p.imag:+.5g}j" if p.imag else "")
+        rad = f"{p.real:.5g}" + (f" {'+' if p.imag > 0 else '-'} j{abs(p.imag):.5g}" if p.imag else "")  # a + jb
         tail = f"   Q {q:.3g}" if q is not None else ""
         side = "   (right half-plane)" if p.real > 0 else ""
         lines.append(f"  {rad:>26}   {eng(abs(p) / (2 * math.pi), 'Hz'):>12}{tail}{side}")
