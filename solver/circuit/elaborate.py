@@ -430,7 +430,7 @@ class _Elaborator:
         self._build(top_stmts, top)
         self._finish(top)
         self.diags.check()
-        self.circuit.warnings = self.diags.warnings
+        self.circuit.warnings = list(dict.fromkeys(self.diags.warnings))  # a block used twice warns once
         self.circuit.resolver = self.res
         return self.circuit
 
@@ -609,7 +609,8 @@ class _Elaborator:
                 self.diags.warning(n.loc, f"node '{n.name}' is not the reference node 'gnd': node names are case "
                                    f"sensitive (write gnd, or add 'ground {n.name}' to make it another name for "
                                    "the reference)")
-        if len(nodes[0]) == 2 and nodes[0][0] == nodes[0][1] and kw not in ("signal", "load"):
+        a_b = nodes[0]
+        if len(a_b) == 2 and (a_b[0] == a_b[1] or {*a_b} <= self.ground) and kw not in ("signal", "load"):
             # joins nothing; the graph checks then blame this line, not its neighbours
             on = "the reference node" if nodes[0][0] in self.ground else f"node '{nodes[0][0]}'"
             self.diags.warning(s.groups[0][0].loc._replace(width=s.groups[0][-1].loc.col + s.groups[0][-1].loc.width
