@@ -139,7 +139,7 @@ def _unbiased(c: Circuit) -> list[Diagnostic]:
 def _region_warnings(c: Circuit, res: BiasResult, purpose: str) -> list[Diagnostic]:
     """A bias-solved transistor outside its amplifying region, as a warning at its line: a finding
     of the bias check; for a small-signal analysis only reached with ``force``."""
-    why = ("the small-signal commands (solve, sweep...) refuse it without --force" if purpose == "bias" else
+    why = ("a small-signal analysis refuses it unless forced (--force; force=True from Python)" if purpose == "bias" else
            "the small-signal results do not describe this circuit (analysed because forced)")
     return [Diagnostic("warning", d.loc, f"{region_text(d, res.devices[d.name])}: outside its amplifying "
                        f"region; {why}") for d in region_problems(c, res)]
