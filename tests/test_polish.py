@@ -387,3 +387,10 @@ def test_bias_report_never_shows_internal_nodes(cli, netlist):
     r = cli("bias", p)
     assert r.returncode == 0 and "U1:pole" not in r.stdout and "{sig}" not in r.stdout and "Q1:" not in r.stdout
     assert "    vcc" in r.stdout
+
+
+def test_options_take_the_compatibility_forms_too(cli):
+    # Unicode Standard Annex #15 (NFKC), as in the netlist
+    r = cli("twoport", "circuits/mic_preamp.pw", "--at", "\uff11kHz", "--z0", "75 \u2126", "--json")
+    j = json.loads(r.stdout)
+    assert r.returncode == 0 and j["frequency_hz"] == 1000.0 and j["z0"] == 75.0

@@ -17,7 +17,8 @@ def option_quantity(text: str, option: str, units: tuple, unit_hint: str) -> flo
 
     Bad text is bad input (exit 2) naming the option; None in ``units`` admits a bare number.
     """
-    text = text.strip()
+    from solver.language.parse import compatibility_forms
+    text = compatibility_forms(text.strip())  # 50 Ω typed with the ohm sign, full-width digits
     sign = -1.0 if text.startswith("-") else 1.0
     try:  # a leading sign is read here (the netlist's numbers take it as an operator)
         value, d = parse_quantity(text[1:].lstrip() if text[:1] in "+-" and text[1:2] else text)
