@@ -100,13 +100,15 @@ def closing_lines(c: Circuit, notes=()) -> list[str]:
     return []
 
 
-def infinite_reason(c: Circuit, name: str) -> str:
+def infinite_reason(c: Circuit, name: str, quantities: dict | None = None) -> str:
     """Why a gain is infinite when an ideal op-amp makes it so (empty for anything else)."""
     from solver.circuit.elements import Nullor
     if not any(isinstance(e, Nullor) for e in c.elements):
         return ""
     if name == "Ai":
         return "ideal op-amp: its inputs draw no current, so i_in = 0; give gain= for a finite op-amp"
+    if name in ("Avo", "Av") and (quantities or {}).get("Rin") == 0:
+        return "ideal op-amp: the input port is a virtual ground, so v_in = 0; give gain= for a finite op-amp"
     if name in ("Avo", "Av", "Gv", "Gvo"):
         return "ideal op-amp: infinite open-loop gain; give gain= for a finite one"
     return ""
@@ -174,7 +176,7 @@ def solve_report(result, symbolic: dict | None = None) -> str:
     for name, z in q.items():
         if name in same:
             continue
-        line = f"  {name:<5} {fmt_quantity(name, z, UNITS[name], infinite_reason(c, name))}"
+        line = f"  {name:<5} {fmt_quantity(name, z, UNITS[name], infinite_reason(c, name, q))}"
         if symbolic and name in symbolic:
             line += f"\n        = {symbolic[name]}"
         out.append(line)
