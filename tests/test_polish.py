@@ -394,3 +394,11 @@ def test_options_take_the_compatibility_forms_too(cli):
     r = cli("twoport", "circuits/mic_preamp.pw", "--at", "\uff11kHz", "--z0", "75 \u2126", "--json")
     j = json.loads(r.stdout)
     assert r.returncode == 0 and j["frequency_hz"] == 1000.0 and j["z0"] == 75.0
+
+
+def test_element_between_two_names_of_the_reference_and_block_warnings_once():
+    w = _warnings("signal VS (a, gnd) 1 V\nresistor R0 (gnd, 0) 1k\nblock b (x)\n resistor R (x, gnd) 10m\nend\n"
+                  "use b B1 (a)\nuse b B2 (a)\nload RL (a, gnd) 1k\n")
+    assert w == [(2, "R0 has both ends on the reference node: it carries no current and does nothing "
+                     "(a typo for another node?)"),
+                 (4, "10 mΩ is implausible for a resistor (below 1 Ω); for megaohms write 10M")]
