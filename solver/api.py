@@ -210,6 +210,8 @@ class Derivation(_Dictable):
     tolerance: float | None = None
     warnings: list[Diagnostic] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
+    #: with ``midband=True``: the capacitors' classification (solver.analysis.midband.Midband)
+    midband: object = None
 
     @property
     def expressions(self) -> dict[str, str]:
@@ -229,6 +231,8 @@ class Derivation(_Dictable):
                                     "error_bound_at_frequency": _num(d.pruned.bound_at_f)}
             items.append(item)
         out = items[0] if len(items) == 1 else {"quantities": items}
+        if self.midband is not None:
+            out = dict(out, midband=self.midband.to_dict())
         if self.notes:
             out = dict(out, notes=list(self.notes))
         return out
@@ -256,7 +260,7 @@ def derive(circuit: Circuit | str | Path, quantity: str | list[str] = "Av", keep
     from solver.analysis.symbolic.claims import parse_limit
     from solver.analysis.symbolic.derive import derive as _derive
     from solver.analysis.symbolic.ports import circuit_symbols
-    c = _circuit(circuit)
+    c, classes = _circuit(circuit), None
     if midband:
         c, classes, p = midband_circuit(c, force)
         notes = list(p.notes) + [classes.note()]
@@ -276,7 +280,7 @@ def derive(circuit: Circuit | str | Path, quantity: str | list[str] = "Av", keep
     limits = [parse_limit(t, circuit_symbols(c)) for t in limits]
     f, _ = analysis_frequency(c, at)
     results = _derive(c, qs, list(keep) if keep else None, list(numeric or ()), limits, dominant, f, expand_bias)
-    return Derivation(c, f, results, dominant, p.warnings, notes)
+    return Derivation(c, f, results, dominant, p.warnings, notes, classes)
 
 
 @dataclass

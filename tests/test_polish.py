@@ -402,3 +402,10 @@ def test_element_between_two_names_of_the_reference_and_block_warnings_once():
     assert w == [(2, "R0 has both ends on the reference node: it carries no current and does nothing "
                      "(a typo for another node?)"),
                  (4, "10 mΩ is implausible for a resistor (below 1 Ω); for megaohms write 10M")]
+
+
+def test_api_derive_midband_matches_the_command(cli):
+    from tests.conftest import ROOT
+    d = solver.derive(ROOT / "circuits/contact_pickup_preamp.pw", "Av", midband=True).to_dict()
+    printed = json.loads(cli("derive", "circuits/contact_pickup_preamp.pw", "Av", "--midband", "--json").stdout)
+    assert d["expression"] == printed["expression"] and d["midband"] == printed["midband"]

@@ -147,7 +147,7 @@ def _shown_nodes(nodes) -> list[str]:
 def reference_hint(circuit: Circuit, nodes, bs) -> str:
     """Why a group may miss the reference: a node spelt like it in another case, or no element on it."""
     ground = sorted(circuit.ground, key=lambda g: g != "gnd")
-    alike = [n for n in nodes if n.lower() in ("gnd", "ground", "0", "vss", "com") and n not in circuit.ground]
+    alike = [n for n in nodes if n.lower() in ("gnd", "ground") and n not in circuit.ground]
     if alike:
         return (f"; node names are case sensitive: '{alike[0]}' is not the reference node '{ground[0]}' "
                 f"(write {ground[0]}, or add 'ground {alike[0]}' to make it another name for the reference)")
