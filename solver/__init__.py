@@ -13,6 +13,7 @@ __version__ = "0.1.0"
 __all__ = ["load", "loads", "solve", "bias", "derive", "check", "sweep", "twoport", "Result", "InputError"]
 _API = ("load", "loads", "solve", "Result", "bias", "derive", "check", "sweep", "twoport", "midband_circuit",
         "BiasReport", "Derivation", "CheckResult", "Sweep", "TwoPortResult")
+__all__ += ["loop"]  # feedback: return ratio, asymptotic gain, Blackman, margins
 
 
 def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
@@ -22,4 +23,7 @@ def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scip
     if name == "InputError":
         from solver.diagnostics import InputError
         return InputError
+    if name == "loop":
+        from solver import api
+        return api.loop
     raise AttributeError(name)

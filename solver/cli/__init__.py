@@ -14,7 +14,8 @@ import sys
 from solver.diagnostics import InputError
 from solver.output.cautions import CAUTION
 
-COMMANDS = ("solve", "derive", "check", "bias", "sweep", "twoport")
+COMMANDS = ("solve", "derive", "check", "bias", "sweep", "twoport",
+            "loop")
 
 EPILOG = """\
 examples:

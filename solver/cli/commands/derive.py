@@ -23,6 +23,8 @@ Small-signal results are linear estimates, not a safety assessment."""
 from solver.circuit.model import PORT_QUANTITIES
 
 QUANTITY_CHOICES = PORT_QUANTITIES + ("all",)
+LOOP_CHOICES = ("T", "Ginf", "G0")  # feedback around --around NAME (solver.analysis.symbolic.loop)
+QUANTITY_CHOICES += LOOP_CHOICES
 
 
 def _names(values) -> list[str]:
@@ -52,6 +54,8 @@ def add_arguments(p) -> None:
     add_force(p)
     p.add_argument("--midband", action="store_true", help="derive from the midband circuit: coupling and bypass "
                    "capacitors shorted, device and wiring capacitances opened (the classification is listed)")
+    p.add_argument("--around", metavar="NAME",
+                   help="for T, Ginf, G0: the loop's controlled source (Q1, U1, G1), as portwise loop")
 
 
 def tolerance(text: str) -> float:
@@ -84,7 +88,13 @@ def run(args) -> int:
         if check_midband(c):
             raise p.fail(check_midband(c))
         at = 0.0
-    if args.quantity == "all":
+    if args.quantity in LOOP_CHOICES:
+        if not args.around:
+            raise error(None, f"{args.quantity} needs --around NAME (the controlled source of the loop)")
+        qs = [args.quantity]
+    elif args.around:
+        raise error(None, f"--around goes with {', '.join(LOOP_CHOICES)}, not {args.quantity}")
+    elif args.quantity == "all":
         qs = scenarios.quantities(c)
     else:
         why = scenarios.why_undefined(c, args.quantity)
@@ -97,7 +107,7 @@ def run(args) -> int:
     numeric = _names(args.numeric)
     tol = tolerance(args.dominant) if args.dominant is not None else None
     f, _ = analysis_frequency(c, at)
-    results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias)
+    results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias, around=args.around)
     if args.json:
         items = []
         for d in results:
