@@ -592,7 +592,9 @@ def _describe(expected) -> str:
         words.append("',' before a parameter")
     tail = "end of line" if exp & {"_NL", "$END"} else None
     exp -= {"_NL", "$END"}
-    words += sorted({_EXPECT_NAMES.get(t, f"'{t.lower()}'" if t.isupper() else f"'{t}'") for t in exp})
+    # a keyword's own terminal (WITHIN) is the keyword; lark's anonymous ones (__ANON_0) have no word
+    words += sorted({_EXPECT_NAMES.get(t, f"'{t.lower()}'" if t.isupper() else f"'{t}'")
+                     for t in exp if not t.startswith("__")})
     if tail:
         words.append(tail)
     return ", ".join(words)
