@@ -423,3 +423,15 @@ def test_api_derive_midband_matches_the_command(cli):
     d = solver.derive(ROOT / "circuits/contact_pickup_preamp.pw", "Av", midband=True).to_dict()
     printed = json.loads(cli("derive", "circuits/contact_pickup_preamp.pw", "Av", "--midband", "--json").stdout)
     assert d["expression"] == printed["expression"] and d["midband"] == printed["midband"]
+
+
+def test_plot_phase_starts_in_the_half_open_interval():
+    import numpy as np
+    from solver.output.plot import figure
+    f = np.logspace(0, 4, 50)
+    # an inverting stage: -1/(1 + s/ω0) starts at 180° (never -180°), and falls toward 90°
+    h = -1 / (1 + 1j * f / 100) * np.exp(-1j * 1e-30)
+    h[0] = complex(-abs(h[0]), -0.0)
+    line = figure(f, h).axes[1].get_lines()[0]
+    y = line.get_ydata()
+    assert -180 < y[0] <= 180 and y[0] == pytest.approx(180.0, abs=1.0)

@@ -81,6 +81,9 @@ def figure(freqs, h, title: str = "", quantity: str = "Gv",
         mag = np.abs(h) if ohms else 20 * np.log10(np.abs(h))
     phase = np.degrees(np.unwrap(np.angle(np.where(np.isfinite(h), h, 1.0))))
     phase = np.where(np.isfinite(h), phase, np.nan)
+    finite = phase[np.isfinite(phase)]
+    if finite.size:  # the unwrapped curve, shifted by whole turns so that it starts in (-180°, 180°]
+        phase = phase - 360.0 * math.ceil((finite[0] - 180.0) / 360.0)
     fig = Figure(figsize=(7.5, 6.0), dpi=100)
     ax_m, ax_p = fig.subplots(2, 1, sharex=True)
     (ax_m.loglog if ohms else ax_m.semilogx)(freqs, mag, color=TRACE, linewidth=1.6)
