@@ -14,10 +14,11 @@ __all__ = ["load", "loads", "solve", "bias", "derive", "check", "sweep", "twopor
 _API = ("load", "loads", "solve", "Result", "bias", "derive", "check", "sweep", "twoport", "midband_circuit",
         "BiasReport", "Derivation", "CheckResult", "Sweep", "TwoPortResult")
 __all__ += ["loop"]  # feedback: return ratio, asymptotic gain, Blackman, margins
+__all__ += ["sensitivity", "spread", "tune"]  # tolerances, Monte Carlo, part values
 
 
 def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
-    if name in _API:
+    if name in _API or name in ("sensitivity", "spread", "tune"):
         from solver import api
         return getattr(api, name)
     if name == "InputError":
