@@ -196,7 +196,8 @@ def test_bias_reports_saturation_as_a_warning_and_solve_refuses(cli, netlist):
 
 
 @pytest.mark.parametrize("cmd", [["solve"], ["derive", "Av"], ["check"], ["sweep", "--from", "10Hz", "--to", "1MHz"],
-                                 ["twoport", "--at", "1kHz"], ["loop", "--around", "Q1"]])
+                                 ["twoport", "--at", "1kHz"], ["loop", "--around", "Q1"],
+                                 ["sensitivity"]])
 def test_every_use_hint_works_on_the_command_that_printed_it(cli, netlist, cmd):
     import re
     p = netlist(ONE_RESISTOR_BIAS.replace("4k7", "470k"))
