@@ -41,8 +41,18 @@ class Result:
     bias: object = None
     #: every warning found on the way (elaboration, DC view, bias, topology, conditioning)
     warnings: list[Diagnostic] = field(default_factory=list)
+    #: with ``midband=True``: the capacitors' classification (solver.analysis.midband.Midband)
+    midband: object = None
+    #: the exact ratio written whatever its size; LaTeX in the dictionary
+    expanded: bool = False
+    latex: bool = False
 
-    def to_json(self) -> dict:
+    def to_json(self) -> str:
+        """:meth:`to_dict` as a JSON string (infinite values as ``"inf"``)."""
+        return _dumps(self.to_dict())
+
+    def to_dict(self) -> dict:
+        """The ``portwise solve --json`` object."""
         out = {
             "circuit": self.circuit.title or Path(self.circuit.file).stem,
             "frequency_hz": self.frequency_hz,
@@ -52,10 +62,31 @@ class Result:
         }
         if self.notes:  # e.g. "evaluated at the detected midband frequency"
             out["notes"] = list(self.notes)
+        if self.midband is not None:
+            out["midband"] = self.midband.to_dict()
         return out
 
 
 from solver.output.jsonout import number as _num# noqa: E402  (one JSON rule for every command)
+
+
+def _dumps(obj) -> str:
+    import json
+    return json.dumps(obj, indent=2, allow_nan=False)
+
+
+def _circuit(circuit) -> Circuit:
+    return circuit if isinstance(circuit, Circuit) else load(circuit)
+
+
+class _Dictable:
+    """``to_json()`` is ``to_dict()`` as a JSON string, the same object the command's ``--json`` prints."""
+
+    def to_json(self) -> str:
+        return _dumps(self.to_dict())
+
+    def to_dict(self) -> dict:  # pragma: no cover - every result defines it
+        raise NotImplementedError
 
 
 DEVICE_COLUMNS = {"bjt": ("gm", "rpi", "ro", "re", "beta"), "mos": ("gm", "ro", "gmb")}
@@ -74,15 +105,20 @@ def device_table(c: Circuit) -> dict[str, dict[str, float]]:
     return out
 
 
-def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = False) -> Result:
+def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = False,
+          midband: bool = False) -> Result:
     """Port quantities of a circuit at ``at`` hertz (default: the detected midband if reactive, else DC).
 
     A device given by its DC parameters (no ic/gm, id/gm) is first biased
     (:func:`solver.analysis.pipeline.prepare`); a transistor outside its amplifying
     region is an InputError unless ``force`` (then the result's notes warn).
-    Raises InputError for a circuit that cannot be solved (e.g. singular).
+    ``midband``: the midband circuit instead (:func:`midband_circuit`: coupling and bypass
+    capacitors shorted, device and wiring capacitances opened; ``result.midband`` lists
+    the classification). Raises InputError for a circuit that cannot be solved (e.g. singular).
     """
     c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    if midband:
+        return _solve_midband(c, force)
     with paused_gc():
         p = pipeline.prepare(c, "ports", "dc" if at is not None and float(at) == 0 else "ac", force)
         f, why = analysis_frequency(p.circuit, at)
@@ -92,6 +128,274 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
             raise p.fail(explain_singular(p.circuit, f, str(e))) from None
         warnings = p.warnings + conditioning(p.circuit, f)
     return Result(p.circuit, f, pr.quantities, device_table(p.circuit), p.notes + why, p.bias, warnings)
+
+
+def midband_circuit(circuit: Circuit | str | Path, force: bool = False):
+    """``(midband circuit, classification)`` of a circuit, biased first when it needs it.
+
+    See :func:`solver.analysis.midband.midband_circuit`; the classification's ``.lines()``
+    and ``.to_dict()`` list what was shorted and what opened.
+    """
+    from solver.analysis.midband import check_midband, midband_circuit as _midband
+    p = pipeline.prepare(_circuit(circuit), "ports", "ac", force)
+    m, classes = _midband(p.circuit)
+    errors = check_midband(m)
+    if errors:
+        raise p.fail(errors)
+    return m, classes, p
+
+
+def _solve_midband(c: Circuit, force: bool) -> Result:
+    with paused_gc():
+        m, classes, p = midband_circuit(c, force)
+        try:
+            pr = port_quantities(m, 0.0)
+        except PortError as e:
+            raise p.fail(explain_singular(m, 0.0, str(e))) from None
+        warnings = p.warnings + conditioning(m, 0.0)
+    r = Result(m, 0.0, pr.quantities, device_table(m), p.notes + [classes.note()], p.bias, warnings)
+    r.midband = classes
+    return r
+
+
+# --- the other commands as functions ------------------------------------------------------------
+@dataclass
+class BiasReport(_Dictable):
+    """What ``portwise bias`` reports: the DC operating point of a circuit."""
+
+    circuit: Circuit
+    #: solver.analysis.bias.BiasResult: node voltages, device currents and regions, supply currents
+    bias: object
+    notes: list[str] = field(default_factory=list)
+    warnings: list[Diagnostic] = field(default_factory=list)
+
+    @property
+    def nodes(self) -> dict[str, float]:
+        return self.bias.nodes
+
+    @property
+    def devices(self) -> dict[str, dict]:
+        return self.bias.devices
+
+    def to_dict(self) -> dict:
+        from solver.output.biasreport import bias_json
+        out = bias_json(self.bias, self.circuit)
+        if self.notes:
+            out["notes"] = list(self.notes)
+        return out
+
+
+def bias(circuit: Circuit | str | Path) -> BiasReport:
+    """The DC operating point (``portwise bias``); a device outside its region is a warning, not an error.
+
+    Examples
+    --------
+    >>> import solver
+    >>> b = solver.bias(solver.loads("supply VCC (vcc, gnd) 9 V\\nresistor R1 (vcc, b) 10k\\n"
+    ...                              "resistor R2 (b, gnd) 10k\\n"))
+    >>> round(b.nodes["b"], 6), round(b.to_dict()["supplies"]["VCC"], 9)  # 9 V / 20 kΩ
+    (4.5, 0.00045)
+    """
+    c = _circuit(circuit)
+    with paused_gc():
+        p = pipeline.prepare(c, "bias")
+    return BiasReport(p.circuit, p.bias, list(p.bias.notes), p.warnings)
+
+
+@dataclass
+class Derivation(_Dictable):
+    """What ``portwise derive`` reports: each quantity's exact expression."""
+
+    circuit: Circuit
+    frequency_hz: float
+    #: solver.analysis.symbolic.derive results, one per quantity (.quantity, .plain, .latex, .sympy, .symbols)
+    results: list
+    tolerance: float | None = None
+    warnings: list[Diagnostic] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+    #: with ``midband=True``: the capacitors' classification (solver.analysis.midband.Midband)
+    midband: object = None
+    #: the exact ratio written whatever its size; LaTeX in the dictionary
+    expanded: bool = False
+    latex: bool = False
+
+    @property
+    def expressions(self) -> dict[str, str]:
+        """quantity -> the expression as the netlist language writes it."""
+        return {d.quantity: d.plain for d in self.results}
+
+    def to_dict(self) -> dict:
+        from solver.output.derivation import derive_json
+        return derive_json(self.results, self.tolerance, self.frequency_hz, expanded=self.expanded,
+                           latex=self.latex, midband=self.midband, notes=self.notes)
+
+
+def derive(circuit: Circuit | str | Path, quantity: str | list[str] = "Av", keep=None, numeric=(), limits=(),
+           dominant: float | None = None, at: float | None = None, expand_bias: bool = False,
+           force: bool = False, midband: bool = False, expanded: bool = False, latex: bool = False,
+           around: str | None = None) -> Derivation:
+    """Exact symbolic port quantities (``portwise derive``).
+
+    ``quantity`` is a name, a list of names or ``"all"``; ``keep`` the symbols kept symbolic
+    (the others take their values), ``numeric`` the symbols replaced by their values,
+    ``limits`` ``"Q1.ro=oo"``-style texts applied in order, ``dominant`` a tolerance (0.05)
+    for the dominant-term pruning, ``midband`` the midband circuit (see :func:`midband_circuit`),
+    ``expanded`` the flat sum-of-products ratio instead of the design-oriented form, ``latex``
+    each form's LaTeX in the dictionary, ``around`` the controlled source of T, Ginf and G0.
+
+    Examples
+    --------
+    >>> import solver
+    >>> d = solver.derive(solver.loads("signal VS (in, gnd) 1 V\\nresistor R1 (in, out) 1k\\n"
+    ...                                "load RL (out, gnd) 1k\\n"), "Av")
+    >>> d.expressions["Av"]
+    'RL/(R1 + RL)'
+    """
+    from solver.analysis import scenarios
+    from solver.analysis.symbolic.claims import parse_limit
+    from solver.analysis.symbolic.derive import derive as _derive
+    from solver.analysis.symbolic.ports import circuit_symbols
+    c, classes = _circuit(circuit), None
+    if midband:
+        c, classes, p = midband_circuit(c, force)
+        notes = list(p.notes) + [classes.note()]
+        at = 0.0
+    else:
+        p = pipeline.prepare(c, "ports", "dc" if at is not None and float(at) == 0 else "ac", force)
+        c, notes = p.circuit, list(p.notes)
+    if quantity == "all":
+        qs = scenarios.quantities(c)
+    else:
+        qs = [quantity] if isinstance(quantity, str) else list(quantity)
+        from solver.analysis.symbolic.loop import LOOP_QUANTITIES
+        for q in qs:
+            why = None if q in LOOP_QUANTITIES else scenarios.why_undefined(c, q)
+            if why:
+                from solver.diagnostics import error
+                raise error(None, f"{q} is not defined here: {why}")
+    limits = [parse_limit(t, circuit_symbols(c)) for t in limits]
+    f, _ = analysis_frequency(c, at)
+    results = _derive(c, qs, list(keep) if keep else None, list(numeric or ()), limits, dominant, f, expand_bias,
+                      expanded, around=around)
+    return Derivation(c, f, results, dominant, p.warnings, notes, classes, expanded, latex)
+
+
+@dataclass
+class CheckResult(_Dictable):
+    """What ``portwise check`` reports: a verdict for every claim line."""
+
+    circuit: Circuit
+    frequency_hz: float
+    #: solver.analysis.symbolic.claims.Verdict, one per claim
+    verdicts: list
+    warnings: list[Diagnostic] = field(default_factory=list)
+
+    @property
+    def holds(self) -> bool:
+        return all(v.holds for v in self.verdicts)
+
+    def to_dict(self) -> dict:
+        from solver.output.claims import verdict_json
+        return {"frequency_hz": self.frequency_hz, "claims": [verdict_json(v) for v in self.verdicts]}
+
+
+def check(circuit: Circuit | str | Path, at: float | None = None, force: bool = False) -> CheckResult:
+    """The claim lines checked against the exact result (``portwise check``); ``.holds`` for all of them."""
+    from solver.analysis.symbolic.claims import check as check_circuit
+    res = check_circuit(_circuit(circuit), at, force)  # the same input checks as solve (pipeline.prepare)
+    return CheckResult(res.circuit, res.frequency_hz, res.verdicts, res.warnings)
+
+
+@dataclass
+class Sweep(_Dictable):
+    """What ``portwise sweep`` reports: a frequency response and its summary."""
+
+    circuit: Circuit
+    #: solver.analysis.response.Summary: .freqs, .h, .band, .poles, .zeros, .estimates
+    summary: object
+    warnings: list[Diagnostic] = field(default_factory=list)
+
+    @property
+    def frequencies(self):
+        return self.summary.freqs
+
+    @property
+    def response(self):
+        return self.summary.h
+
+    def to_dict(self) -> dict:
+        from solver.output.sweep import summary_json
+        return summary_json(self.summary)
+
+
+def sweep(circuit: Circuit | str | Path, start: float, stop: float, points: int | None = None,
+          per_decade: int | None = None, quantity: str | None = None, force: bool = False) -> Sweep:
+    """The frequency response of one port quantity from ``start`` to ``stop`` hertz (``portwise sweep``).
+
+    Examples
+    --------
+    >>> import solver
+    >>> sw = solver.sweep(solver.loads("signal VS (in, gnd) 1 V\\nresistor R1 (in, out) 1k\\n"
+    ...                                "capacitor C1 (out, gnd) 159.155n\\noutput (out, gnd)\\n"), 10, 1e5)
+    >>> round(sw.summary.band.f_high_hz)  # 1/(2 pi R C), from memory
+    1000
+    """
+    from solver.analysis.frequency import ResponseError, default_quantity, frequencies
+    from solver.analysis.response import analyse
+    from solver.diagnostics import error
+    if not 0 < start < stop:
+        raise error(None, "a sweep needs 0 < start < stop")
+    c = _circuit(circuit)
+    with paused_gc():
+        p = pipeline.prepare(c, "ports", "ac", force)
+        c = p.circuit
+        q = quantity or default_quantity(c)
+        try:
+            sm = analyse(c, q, frequencies(start, stop, points, per_decade))
+        except ResponseError as e:
+            raise error(None, f"quantity {q}: {e}") from None
+    return Sweep(c, sm, p.warnings)
+
+
+@dataclass
+class TwoPortResult(_Dictable):
+    """What ``portwise twoport`` reports: z, y, h, g, ABCD and S at one frequency."""
+
+    circuit: Circuit
+    #: solver.analysis.twoport.TwoPort: .matrices (name -> 2x2 array or None), .reasons
+    twoport: object
+    warnings: list[Diagnostic] = field(default_factory=list)
+
+    @property
+    def matrices(self) -> dict:
+        return self.twoport.matrices
+
+    def to_dict(self) -> dict:
+        from solver.output.twoportjson import twoport_json
+        return twoport_json(self.twoport)
+
+
+def twoport(circuit: Circuit | str | Path, at: float, z0: float = 50.0, force: bool = False) -> TwoPortResult:
+    """The two-port parameters between the input and output ports at ``at`` hertz (``portwise twoport``).
+
+    Examples
+    --------
+    >>> import solver
+    >>> tp = solver.twoport(solver.loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 100\\n"
+    ...                                  "resistor R2 (b, gnd) 1k\\nload RL (b, gnd) 1k\\n"), at=0)
+    >>> [round(float(v.real), 6) for v in tp.matrices["z"].ravel()]  # a tee: z11 = R1 + R2, z12 = z21 = z22 = R2
+    [1100.0, 1000.0, 1000.0, 1000.0]
+    """
+    from solver.analysis.twoport import TwoPortError, two_port
+    from solver.diagnostics import error
+    c = _circuit(circuit)
+    p = pipeline.prepare(c, "twoport", "dc" if float(at) == 0 else "ac", force)
+    c = p.circuit
+    try:
+        tp = two_port(c, float(at), z0)
+    except TwoPortError as e:
+        raise error(c.output_loc or (c.load.loc if c.load else None), str(e)) from None
+    return TwoPortResult(c, tp, p.warnings)
 
 
 # --- tolerances, Monte Carlo and part values (issue 14) ------------------------------------------

@@ -17,6 +17,7 @@ from solver.language import units as U
 from solver.circuit.devices import BJT_QUANTITIES, DIODE_QUANTITIES, MOS_QUANTITIES, DeviceError, small_signal
 from solver.diagnostics import Diagnostics, InputError, Loc, error
 from solver.circuit.elements import CCCS, CCVS, VCCS, VCVS, Capacitor, Inductor, Nullor, Resistor, VoltageSource
+from solver.circuit.plausible import implausible
 from solver.circuit.model import PORT_QUANTITIES, Circuit, ClaimSpec, Device, Load, Signal, Supply
 from solver.language.statements import (BlockStart, Claim, ElementStmt, End, Ground, Let, Netlist, Output, Param,
                                        Spread, Title, Use)
@@ -319,6 +320,11 @@ def _check_current_sign(st: ElementStmt, params: dict) -> None:
                     f"(got {params[key]:g} A); a negative {key}= is for a p-type device")
 
 
+def _literal(e) -> str | None:
+    """The text of a value written as one number (``10m``, ``-3``), else None."""
+    return e.text if isinstance(e, ex.Num) else None
+
+
 def _model_name(p: Param) -> str:
     v = p.value
     if isinstance(v, ex.Ref) and v.parts in (("t",), ("T",)):
@@ -385,6 +391,7 @@ class _Elaborator:
         self.n_elements = 0
         self.scopes: list[tuple[str, Scope]] = []  # (block name, instance scope)
         self._pending: list = []  # (block body, instance scope), filled while declaring
+        self.warned_case: set[str] = set()  # 'GND' and the like, warned about once
         self._later: list = []  # spread and spec lines, read once every value is known
 
     # structure -----------------------------------------------------------------
@@ -427,7 +434,7 @@ class _Elaborator:
         self._finish(top)
         self._spreads()
         self.diags.check()
-        self.circuit.warnings = self.diags.warnings
+        self.circuit.warnings = list(dict.fromkeys(self.diags.warnings))  # a block used twice warns once
         self.circuit.resolver = self.res
         return self.circuit
 
@@ -594,6 +601,11 @@ class _Elaborator:
             raise error(s.value.loc, f"{s.keyword} value is not finite")
         return v
 
+    def _plausible(self, role: str, value: float, expr, loc: Loc) -> None:
+        msg = implausible(role, value, _literal(expr))
+        if msg:
+            self.diags.warning(loc, msg)
+
     def _element(self, s: ElementStmt, entry: Entry, scope: Scope, top: bool):
         """Build one element statement into the circuit: a device, the signal, a supply, the
         load, or a linear primitive."""
@@ -601,6 +613,20 @@ class _Elaborator:
             return
         kw = s.keyword
         nodes = [tuple(self.res.node(n, scope) for n in g) for g in s.groups]
+        for n in (n for g in s.groups for n in g):
+            if n.name.lower() in ("gnd", "ground") and n.name not in self.ground and n.name not in self.warned_case:
+                self.warned_case.add(n.name)
+                self.diags.warning(n.loc, f"node '{n.name}' is not the reference node 'gnd': node names are case "
+                                   f"sensitive (write gnd, or add 'ground {n.name}' to make it another name for "
+                                   "the reference)")
+        a_b = nodes[0]
+        if len(a_b) == 2 and (a_b[0] == a_b[1] or {*a_b} <= self.ground) and kw not in ("signal", "load"):
+            # joins nothing; the graph checks then blame this line, not its neighbours
+            on = "the reference node" if nodes[0][0] in self.ground else f"node '{nodes[0][0]}'"
+            self.diags.warning(s.groups[0][0].loc._replace(width=s.groups[0][-1].loc.col + s.groups[0][-1].loc.width
+                                                           - s.groups[0][0].loc.col),
+                               f"{entry.full} has both ends on {on}: it carries no current and does nothing "
+                               "(a typo for another node?)")
         if kw in ("npn", "pnp", "nmos", "pmos", "diode", "opamp"):
             self._device(s, entry, nodes)
         elif kw == "signal":
@@ -608,6 +634,7 @@ class _Elaborator:
         elif kw == "supply":
             v = self._value(s, entry)
             kind = "A" if v.dim == U.AMP else "V"
+            self._plausible(f"supply_{kind}", v.x, s.value, s.value.loc)
             short = VoltageSource(entry.full, nodes[0], 0.0, None, entry.full, s.loc) if kind == "V" else None
             self.circuit.supplies.append(Supply(entry.full, nodes[0], kind, v.x, s.loc, short))
         elif kw == "load":
@@ -618,6 +645,9 @@ class _Elaborator:
     def _device(self, s: ElementStmt, entry: Entry, nodes):
         c, full = self.circuit, entry.full
         dev = self.res.device(entry)
+        for p in s.params:
+            if p.key in ("ic", "id") and p.key in dev.params:
+                self._plausible(p.key, dev.params[p.key], p.value, p.value.loc)
         if s.keyword != "opamp":
             if s.keyword in ("nmos", "pmos") and len(nodes[0]) == 4 and nodes[0][3] == nodes[0][2]:
                 del dev.nodes["B"]  # the body tied to the source: no body effect
@@ -648,6 +678,9 @@ class _Elaborator:
             raise error(s.params[0].value.loc, "rs must not be negative")
         if kind == "A" and rs.x == 0:
             raise error(s.params[0].value.loc, "a current signal with rs=0 is shorted")
+        rs_param = next((p for p in s.params if p.key == "rs"), None)
+        if rs_param is not None:
+            self._plausible("rs", rs.x, rs_param.value, rs_param.value.loc)
         c.signal = Signal(full, nodes[0], kind, v.x, rs.x, s.loc)
         c.values[f"{full}.rs"] = rs.x
 
@@ -662,6 +695,7 @@ class _Elaborator:
             raise error(s.value.loc, "a load of 0 Ω shorts the output")
         if v.x < 0:
             self.diags.warning(s.value.loc, f"negative load value ({v.x:g})")
+        self._plausible("load", v.x, s.value, s.value.loc)
         c.load = Load(full, nodes[0], v.x, s.loc)
         c.values[full] = v.x
 
@@ -675,6 +709,8 @@ class _Elaborator:
             raise error(s.value.loc, what)
         if kw in ("resistor", "capacitor", "inductor") and v.x < 0:
             self.diags.warning(s.value.loc, f"negative {kw} value ({v.x:g})")
+        if kw in ("resistor", "capacitor", "inductor"):
+            self._plausible(kw, v.x, s.value, s.value.loc)
         c.values[full] = v.x
         cls = {"resistor": Resistor, "capacitor": Capacitor, "inductor": Inductor, "vccs": VCCS,
                "vcvs": VCVS, "cccs": CCCS, "ccvs": CCVS}[kw]

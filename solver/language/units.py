@@ -79,6 +79,11 @@ def parse_quantity(text: str) -> tuple[float, Dim | None]:
     suffix = text[m.end():].strip()
     if not suffix:
         return value, None
+    if m.group("rkm") and suffix[0] in PREFIXES and suffix not in UNITS:
+        # 4k7k: the RKM letter is already the prefix (IEC 60062); a second one is a slip, not 4.7 M
+        code, unit = m.group("rkm"), suffix[1:]
+        raise UnitError(f"the RKM code {code} already carries its multiplier ({eng(_rkm_value(code))}); "
+                        f"a prefix after it is not allowed: write {code}{unit}")
     if suffix == "%":
         return value * 0.01, ONE
     if suffix in UNITS:

@@ -25,13 +25,13 @@ def add_arguments(p) -> None:
     p.add_argument("file", help="netlist file (.pw)")
     p.add_argument("--at", metavar="FREQ", help="analysis frequency (default as solve: the detected midband; DC without reactive parts)")
     p.add_argument("--json", action="store_true", help="print JSON")
+    from solver.cli.commands.common import add_force
+    add_force(p)
 
 
 def _z(z: complex) -> str:
-    from solver.output.report import eng
-    if z.imag == 0 or abs(z.imag) <= 1e-9 * abs(z):
-        return eng(z.real)
-    return f"{eng(z.real)}{z.imag:+.4g}j"
+    from solver.output.report import complex_text
+    return complex_text(z)
 
 
 def table(verdicts) -> str:
@@ -70,9 +70,9 @@ def run(args) -> int:
     from solver.analysis.pipeline import load
     from solver.analysis.symbolic.claims import check
     from solver.cli.commands.common import emit_json, frequency, print_warnings
-    from solver.output.report import CAUTION, eng
+    from solver.output.report import closing_lines, eng
     at = frequency(args.at) if args.at is not None else None
-    res = check(load(args.file), at)  # the same input checks as solve (pipeline.prepare)
+    res = check(load(args.file), at, args.force)  # the same input checks as solve (pipeline.prepare)
     print_warnings(res.warnings)
     c, f, verdicts = res.circuit, res.frequency_hz, res.verdicts
     ok = res.holds
@@ -84,5 +84,6 @@ def run(args) -> int:
         print(table(verdicts))
         print("")
         print(("all claims hold." if ok else f"{sum(not v.holds for v in verdicts)} claim(s) fail."))
-        print(CAUTION)
+        for line in closing_lines(c):
+            print(line)
     return 0 if ok else 1

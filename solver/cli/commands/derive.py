@@ -56,6 +56,10 @@ def add_arguments(p) -> None:
     p.add_argument("--latex", action="store_true", help="print LaTeX (\\parallel for ||); with --json, add it")
     p.add_argument("--expanded", action="store_true", help="print the flat sum-of-products ratio")
     p.add_argument("--json", action="store_true", help="print JSON")
+    from solver.cli.commands.common import add_force
+    add_force(p)
+    p.add_argument("--midband", action="store_true", help="derive from the midband circuit: coupling and bypass "
+                   "capacitors shorted, device and wiring capacitances opened (the classification is listed)")
     p.add_argument("--around", metavar="NAME",
                    help="for T, Ginf, G0: the loop's controlled source (Q1, U1, G1), as portwise loop")
 
@@ -81,9 +85,16 @@ def run(args) -> int:
     from solver.cli.commands.common import emit_json, frequency, print_warnings
     from solver.diagnostics import error
     at = frequency(args.at) if args.at is not None else None
-    p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac")  # the same input checks as solve
+    p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac", args.force)  # the same input checks as solve
     c = p.circuit
     print_warnings(p.warnings)
+    midband = None
+    if args.midband:  # the midband circuit goes down the same derive path
+        from solver.analysis.midband import check_midband, midband_circuit
+        c, midband = midband_circuit(c)
+        if check_midband(c):
+            raise p.fail(check_midband(c))
+        at = 0.0
     if args.quantity in LOOP_CHOICES:
         if not args.around:
             raise error(None, f"{args.quantity} needs --around NAME (the controlled source of the loop)")
@@ -105,28 +116,11 @@ def run(args) -> int:
     f, _ = analysis_frequency(c, at)
     results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias, args.expanded, around=args.around)
     if args.json:
-        items = []
-        for d in results:
-            item = {"quantity": d.quantity, "expression": d.plain, "where": d.form.where_dicts(),
-                    "size": d.size, "form": d.form.kind}
-            sym_text = d.form.sympy_text(None if args.expanded else SYMPY_MAX_TERMS)
-            item["sympy"] = sym_text
-            if sym_text is None:
-                n = (len(d.form.num) + len(d.form.den)) if d.form.num is not None else d.form.expanded_terms
-                item["sympy_omitted"] = f"the expanded ratio has {'up to ' if d.form.num is None else ''}{n} " \
-                                        "terms; --expanded writes it"
-            item["symbols"] = d.symbols
-            if args.latex:
-                item["latex"] = d.latex
-            if d.pruned is not None:
-                item["dominant"] = {"tolerance": tol, "frequency_hz": f, "terms_dropped": d.pruned.dropped,
-                                    "terms_kept": d.pruned.kept,
-                                    "coefficient_error": d.pruned.coefficient_error,
-                                    "error_at_frequency": d.pruned.error_at_f,
-                                    "error_bound_at_frequency": _finite(d.pruned.bound_at_f)}
-            items.append(item)
-        emit_json(items[0] if len(items) == 1 else {"quantities": items})
+        from solver.output.derivation import derive_json
+        emit_json(derive_json(results, tol, f, expanded=args.expanded, latex=args.latex, midband=midband))
         return 0
+    if midband is not None:
+        print("\n".join(midband.lines()))
     for d in results:
         if args.latex:
             print(f"{d.quantity} = {d.latex}")
@@ -139,7 +133,3 @@ def run(args) -> int:
                   f"error at {f:g} Hz {d.pruned.error_at_f:.3g} (bound {d.pruned.bound_at_f:.3g})")
     return 0
 
-
-def _finite(x: float):
-    import math
-    return x if math.isfinite(x) else "inf"
