@@ -8,11 +8,11 @@ The layers, in data-flow order: :mod:`solver.language.parse` (grammar -> stateme
 :mod:`solver.cli`. :func:`load`, :func:`loads` and :func:`solve` are the API.
 """
 __version__ = "0.1.0"
-__all__ = ["load", "loads", "solve", "Result", "InputError"]
+__all__ = ["load", "loads", "solve", "Result", "InputError", "noise", "NoiseResult"]
 
 
 def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
-    if name in ("load", "loads", "solve", "Result"):
+    if name in ("load", "loads", "solve", "Result", "noise", "NoiseResult"):
         from solver import api
         return getattr(api, name)
     if name == "InputError":

@@ -195,6 +195,34 @@ class _SparseSweep:
         self.banded = self.kl + self.ku <= BAND_LIMIT
         if self.banded:
             self.band_index = (self.ku + rows - cols, cols)
+        self.rows, self.cols = rows, cols
+
+    def solve_transposed(self, s: complex, R: np.ndarray) -> np.ndarray:
+        """Y with (G + sC)^T Y = R, R of shape (n, m): the adjoint system, on the same pattern and
+        ordering (P A P^T transposed is P A^T P^T, so the permutation carries over)."""
+        Rp = R[self.perm]
+        if self.banded:
+            from scipy.linalg import LinAlgError, solve_banded
+            ab = np.zeros((self.kl + self.ku + 1, self.n), complex)
+            # A^T has lower bandwidth ku and upper kl; its entry (j, i) is A's (i, j)
+            r, c = self.rows, self.cols
+            ab[self.kl + c - r, r] = self.g + s * self.c
+            try:
+                with np.errstate(all="ignore"):
+                    y = solve_banded((self.ku, self.kl), ab, Rp, check_finite=False)
+            except LinAlgError:
+                raise RuntimeError("singular") from None
+            return y[self.inv]
+        import scipy.sparse as sp, scipy.sparse.linalg as spla
+        A = sp.csc_matrix((self.g + s * self.c, self.indices, self.indptr), shape=(self.n, self.n))
+        with np.errstate(all="ignore"):
+            if self.spec is None:
+                lus = {spec: spla.splu(A, permc_spec=spec) for spec in ("NATURAL", "COLAMD")}
+                self.spec = min(lus, key=lambda k: lus[k].L.nnz + lus[k].U.nnz)
+                lu = lus[self.spec]
+            else:
+                lu = spla.splu(A, permc_spec=self.spec)
+            return lu.solve(Rp, trans="T")[self.inv]
 
     def solve(self, s: complex) -> np.ndarray:
         if self.banded:
@@ -265,6 +293,68 @@ def solve_many(sys_: System, s: np.ndarray, dense: bool | None = None,
         try:
             out[k] = sweep.solve(sv)
         except RuntimeError:  # exactly singular at this point
+            pass
+    return out
+
+
+def solve_many_adjoint(sys_: System, s: np.ndarray, R: np.ndarray, dense: bool | None = None) -> np.ndarray:
+    """Solutions Y_k of the adjoint (transposed) system (G + s_k C)^T Y = R, shape (len(s), n, m).
+
+    R (n, m) holds m read-out vectors r; then r . x = Y[:, j] . b for EVERY excitation b of the
+    system, so one solve per frequency gives the transfer of any number of sources to the
+    read-outs (the adjoint network; Rohrer, Nagel, Meyer, Weber, IEEE J. Solid-State Circuits
+    6(4), 1971). Singular points give nan. Dense batched LU up to :data:`DENSE_LIMIT` unknowns,
+    else the sweep's sparse or banded LU of the same pattern and ordering (:class:`_SparseSweep`).
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> from solver.engine.mna import assemble
+    >>> c = loads("signal VS (a, gnd) 1 V, rs=1k\\ncapacitor C1 (a, gnd) 1u\\noutput (a, gnd)\\n")
+    >>> sc = scenario(c, "Gv")
+    >>> s = np.array([2j * np.pi * 159.15494309189535])
+    >>> y = solve_many_adjoint(sc.system, s, sc.num.r[:, None])
+    >>> complex(np.round(y[0, :, 0] @ sc.system.b, 6)) == complex(np.round(response(sc, s.imag / 2 / np.pi)[0], 6))
+    True
+    """
+    n = sys_.stamper.size
+    s = np.asarray(s, complex)
+    R = np.asarray(R, complex).reshape(n, -1)
+    m = R.shape[1]
+    out = np.full((s.size, n, m), np.nan, complex)
+    if n == 0:
+        return out
+    if dense is None:
+        dense = n <= DENSE_LIMIT
+    if dense:
+        G = sys_.dense("G").astype(complex).T
+        C = sys_.dense("C").astype(complex).T
+        step = max(1, _BATCH_BYTES // (16 * n * n))
+        ri, ci = np.nonzero(C)
+        cv = C[ri, ci]
+        for k0 in range(0, s.size, step):
+            sk = s[k0:k0 + step]
+            A = np.repeat(G[None, :, :], sk.size, axis=0)
+            A[:, ri, ci] += sk[:, None] * cv[None, :]
+            try:
+                with np.errstate(all="ignore"):
+                    out[k0:k0 + step] = np.linalg.solve(A, np.broadcast_to(R, (sk.size, n, m)))
+            except np.linalg.LinAlgError:  # one singular point spoils the batch: point by point
+                for k in range(sk.size):
+                    try:
+                        out[k0 + k] = np.linalg.solve(A[k], R)
+                    except np.linalg.LinAlgError:
+                        pass
+        bad = ~np.all(np.isfinite(out), axis=(1, 2))
+        out[bad] = np.nan
+        return out
+    sweep = getattr(sys_, "_sparse_sweep", None)
+    if sweep is None:
+        sweep = sys_._sparse_sweep = _SparseSweep(sys_)
+    for k, sv in enumerate(s):
+        try:
+            out[k] = sweep.solve_transposed(sv, R)
+        except RuntimeError:
             pass
     return out
 

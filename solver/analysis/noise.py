@@ -1,0 +1,465 @@
+"""Small-signal noise by the adjoint method: output noise, input-referred noise, en and in, noise figure.
+
+Every noise generator is a further excitation of the system that the main gain (Gv, or Zt for
+a current signal) already solves: the scenario table's loaded, signal-driven configuration
+(:func:`solver.analysis.scenarios.noise_measurement`), stamped once. A current generator
+between two nodes, or the voltage generator in series with an op-amp input, is a right-hand
+side b_k; its transfer to a read-out y = r . x is r . A^-1 b_k = (A^-T r) . b_k. So one
+solve of the transposed (adjoint) system per frequency, for the three read-outs v_out, v_in
+and i_in, gives the transfer of every generator at once (:func:`solver.analysis.frequency.
+solve_many_adjoint`, vectorised over frequency like the sweep).
+
+Generators (one-sided power spectral densities; k and q are the exact SI values, T the
+element's temperature, 300 K unless it gives temp=):
+
+==========  =====================================  ==========================================
+element     generator                              placed
+==========  =====================================  ==========================================
+resistor    thermal 4kT/R (A^2/Hz)                 across it (also the load and the signal's rs)
+BJT         collector shot 2q I_C                  collector to emitter
+            base shot 2q I_B, I_B = I_C/beta       internal base B' to emitter
+            base flicker 2q I_B fc/f (fc=)         internal base B' to emitter
+            thermal of rx 4kT/rx                   base to B'
+MOSFET      channel thermal 4kT gamma gm           drain to source (gamma= default 2/3)
+            flicker 4kT gamma gm fc/f (fc=)        drain to source
+diode       shot 2q I_D                            anode to cathode
+op-amp      en^2 (1 + fce/f) (V^2/Hz)              in series with the + input
+            in^2 (1 + fci/f) (A^2/Hz)              from each input to ground (two generators)
+==========  =====================================  ==========================================
+
+rpi, re, ro, rd are small-signal slopes, not resistors: no thermal noise. Controlled sources,
+capacitors and inductors are noiseless. All generators are taken as uncorrelated: the
+collector and base shot noise (two currents of one junction, whose correlation grows only
+near f_T), a base's shot and flicker noise, the two input currents of an op-amp and its en.
+
+Equivalent input generators. With the input port terminated by the source, a generator k
+gives the output H_k and the port voltage and current (into P) v_k, j_k. The two-port
+equivalent (noiseless two-port with e in series and i across its input) of generator k is
+
+    e_k = H_k / Av - v_k,        i_k = H_k / (Av Rin) - j_k,
+
+with Av = v_out/v_in and Rin = v_in/i_in of the same (loaded) solve: e_k is the output
+with the input shorted referred by Av, i_k the short-circuit current with the part e_k
+drives through Rin removed. Then for any source resistance Rs the input-referred noise
+is en^2 + 2 Rs Re(C) + Rs^2 in^2, with en^2 = sum S_k |e_k|^2, in^2 = sum S_k |i_k|^2,
+C = sum S_k e_k conj(i_k) (every generator except the source's own rs).
+
+Noise figure (IEEE definition, the source at T0 = 290 K):
+F = 1 + (output noise of every other generator) / (output noise of rs at T0), NF = 10 log10 F.
+Over a band, F_avg is the ratio of the integrals. For a resistive source the minimum is at
+Rs_opt = en/in with F_min = 1 + (en in + Re C)/(2 k T0).
+
+References
+----------
+R. Rohrer, L. Nagel, R. Meyer, L. Weber, "Computationally efficient electronic-circuit noise
+calculations", IEEE J. Solid-State Circuits 6(4), 1971 (the adjoint network).
+P. R. Gray, P. J. Hurst, S. H. Lewis, R. G. Meyer, *Analysis and Design of Analog Integrated
+Circuits*, 5th ed., chapter 11 (device noise models, equivalent input generators, noise
+figure and optimum source resistance), from memory.
+C. D. Motchenbacher, J. A. Connelly, *Low-Noise Electronic System Design*, Wiley, 1993,
+chapters 2 and 4 (en-in model with correlation, optimum source resistance), from memory.
+IEEE Std 161-1963 / H. T. Friis, "Noise figures of radio receivers", Proc. IRE 32, 1944
+(noise factor at T0 = 290 K), from memory.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from solver.analysis import frequency as fq
+from solver.analysis import scenarios as table
+from solver.circuit.devices import BOLTZMANN, ELEMENTARY_CHARGE, thermal_voltage
+from solver.circuit.elements import VCCS, VCVS, Nullor, Resistor
+from solver.circuit.model import Circuit
+from solver.circuit.views import SIG_INT, small_signal_elements
+from solver.engine.mna import assemble
+
+#: the temperature of every element without temp= (the one V_T = kT/q uses)
+T_DEFAULT = 300.0
+#: the reference temperature of the noise figure (IEEE)
+T0 = 290.0
+#: the channel-noise factor of a long-channel MOSFET in saturation (Gray et al., ch. 11, from memory)
+GAMMA_LONG = 2.0 / 3.0
+#: the kinds of generator, as the contributions table names them
+KINDS = ("thermal", "shot", "flicker", "en", "in")
+#: what the analysis assumes, for the reports
+ASSUMPTIONS = ("all noise generators are uncorrelated: collector and base shot noise of a BJT "
+               "(their correlation matters only near f_T), a base's shot and flicker noise, an "
+               "op-amp's en and the in of its two inputs",
+               "rpi, re, ro and rd are small-signal slopes and carry no thermal noise; controlled "
+               "sources, capacitors and inductors are noiseless",
+               "densities are one-sided; elements are at 300 K unless they give temp=, the source "
+               "at T0 = 290 K for the noise figure")
+_BATCH_BYTES = 48 * 2 ** 20
+
+
+@dataclass(frozen=True)
+class Source:
+    """One noise generator: its density and where it enters the stamped system.
+
+    psd(f) = white * (flat + corner / f): a white generator has flat=1 (and an optional
+    flicker corner folded in, as for an op-amp's en), a flicker generator flat=0.
+    ``injection`` is the right-hand side b_k as (unknown index, coefficient) pairs.
+    """
+
+    element: str
+    kind: str
+    where: str
+    white: float
+    injection: tuple
+    flat: float = 1.0
+    corner: float = 0.0
+    temp: float | None = None
+    is_signal: bool = False
+
+    @property
+    def current(self) -> bool:
+        """True for a current generator (A^2/Hz), False for a voltage one (V^2/Hz)."""
+        return self.kind != "en"
+
+    def psd(self, f: np.ndarray) -> np.ndarray:
+        f = np.asarray(f, float)
+        return self.white * (self.flat + self.corner / f)
+
+
+# --- the generators ----------------------------------------------------------------------------
+def _between(st, a: str, b: str) -> tuple:
+    """A current generator from node a through itself to node b: b = -e_a + e_b."""
+    out = []
+    ia, ib = st.node(a), st.node(b)
+    if ia is not None:
+        out.append((ia, -1.0))
+    if ib is not None:
+        out.append((ib, 1.0))
+    return tuple(out)
+
+
+class _ControlColumn:
+    """A stamper that records one element's coefficients of one control node's voltage.
+
+    A voltage generator e in series with a controlling input turns v(inp) into v(inp) + e in
+    that element's equations, i.e. adds (column of inp) * e on the left: the excitation is
+    minus that column. Recording the element's own stamp keeps this true for every form of
+    op-amp (nullor, flat gain, single pole) without restating their stamps.
+    """
+
+    def __init__(self, st, target: str):
+        self.st, self.target, self.entries = st, target, {}
+
+    def node(self, name):
+        return "ctrl" if name == self.target else self.st.node(name)
+
+    def branch(self, e):
+        return self.st.branch(e)
+
+    def value(self, e):
+        return e.value
+
+    def recip(self, e):
+        return 1.0 / e.value
+
+    def g(self, r, c, v):
+        if c == "ctrl" and r is not None and r != "ctrl":
+            self.entries[r] = self.entries.get(r, 0.0) + v
+
+    c = g
+
+    def rhs(self, r, v):
+        pass
+
+
+def _thermal(c: Circuit, name: str, element: str, where: str, r: float, st, a: str, b: str) -> Source | None:
+    spec = c.noise.get(name, {})
+    if spec.get("off"):
+        return None
+    t = spec.get("temp", T_DEFAULT)
+    return Source(element, "thermal", where, 4 * BOLTZMANN * t / abs(r), _between(st, a, b), temp=t,
+                  is_signal=where == "rs")
+
+
+def noise_sources(c: Circuit, st) -> list[Source]:
+    """Every noise generator of the circuit, its injection numbered by the stamper ``st``.
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> c = loads("signal VS (a, gnd) 1 V, rs=1k\\nresistor R1 (a, gnd) 1k, noise=off\\n"
+    ...           "load RL (a, gnd) 1k\\n")
+    >>> sorted((s.element, s.kind, s.where) for s in noise_sources(c, _system(c)[0].stamper))
+    [('RL', 'thermal', ''), ('VS', 'thermal', 'rs')]
+    """
+    out: list[Source | None] = []
+    q = ELEMENTARY_CHARGE
+    sig = c.signal
+    if sig is not None:
+        p, n = sig.nodes
+        if sig.kind == "V" and sig.rs > 0:
+            out.append(_thermal(c, f"{sig.name}.rs", sig.name, "rs", sig.rs, st, SIG_INT, p))
+        elif sig.kind == "A" and math.isfinite(sig.rs):
+            out.append(_thermal(c, f"{sig.name}.rs", sig.name, "rs", sig.rs, st, p, n))
+    for e in c.elements:
+        if isinstance(e, Resistor) and e.origin == e.name:  # a netlist resistor, not a model's
+            out.append(_thermal(c, e.name, e.name, "", e.value, st, *e.nodes))
+    if c.load is not None:
+        out.append(_thermal(c, c.load.name, c.load.name, "", c.load.value, st, *c.load.nodes))
+    for d in c.devices:
+        if d.params.get("noise") == 0.0:
+            continue
+        ss, name = d.ss, d.name
+        t = d.params.get("temp", T_DEFAULT)
+        if d.is_bjt:
+            col, base, em = d.nodes["C"], d.nodes["B"], d.nodes["E"]
+            rx = ss.get("rx", 0.0)
+            bi = f"{name}:b" if rx > 0 else base
+            ib = ss["ic"] / ss["beta"]
+            out.append(Source(name, "shot", "collector", 2 * q * ss["ic"], _between(st, col, em)))
+            out.append(Source(name, "shot", "base", 2 * q * ib, _between(st, bi, em)))
+            if d.params.get("fc", 0.0) > 0:
+                out.append(Source(name, "flicker", "base", 2 * q * ib, _between(st, bi, em), 0.0, d.params["fc"]))
+            if rx > 0:
+                out.append(Source(name, "thermal", "rx", 4 * BOLTZMANN * t / rx, _between(st, base, bi), temp=t))
+        elif d.is_mos:
+            dr, so = d.nodes["D"], d.nodes["S"]
+            white = 4 * BOLTZMANN * t * d.params.get("gamma", GAMMA_LONG) * ss["gm"]
+            out.append(Source(name, "thermal", "channel", white, _between(st, dr, so), temp=t))
+            if d.params.get("fc", 0.0) > 0:
+                out.append(Source(name, "flicker", "channel", white, _between(st, dr, so), 0.0, d.params["fc"]))
+        else:
+            i_d = ss.get("id")
+            if i_d is None:  # rd= given: the forward current that makes that slope, n V_T / rd
+                i_d = d.params.get("n", 1.0) * thermal_voltage(t) / ss["rd"]
+            out.append(Source(name, "shot", "diode", 2 * q * abs(i_d), _between(st, d.nodes["A"], d.nodes["K"])))
+    out.extend(_opamp_sources(c, st))
+    return [s for s in out if s is not None and s.injection and s.white > 0]
+
+
+def _opamp_sources(c: Circuit, st) -> list[Source]:
+    out = []
+    for name, spec in c.noise.items():
+        if spec.get("off") or not ("en" in spec or "in" in spec):
+            continue
+        el = next(e for e in st.elements
+                  if (e.name == name and isinstance(e, (Nullor, VCVS))) or (e.name == f"{name}.gp" and isinstance(e, VCCS)))
+        inp, inn = (el.nodes[1], el.nodes[2]) if isinstance(el, Nullor) else el.ctrl
+        if spec.get("en", 0.0) > 0:
+            col = _ControlColumn(st, inp)
+            el.stamp(col)
+            inj = tuple((r, -v) for r, v in col.entries.items() if v != 0)
+            out.append(Source(name, "en", "+input", spec["en"] ** 2, inj, 1.0, spec.get("fce", 0.0)))
+        if spec.get("in", 0.0) > 0:
+            gnd = next(iter(sorted(c.ground)))
+            for where, node in (("+input", inp), ("-input", inn)):
+                out.append(Source(name, "in", where, spec["in"] ** 2, _between(st, node, gnd), 1.0,
+                                  spec.get("fci", 0.0)))
+    return out
+
+
+def _system(c: Circuit):
+    """The stamped system of the main gain's configuration and its read-out matrix (n, 3)."""
+    cfg, reads = table.noise_measurement(c, small_signal_elements(c))
+    sys_ = assemble(list(cfg.elements), c.ground)
+    ros = [fq._readout(sys_, reads[k]) for k in table.NOISE_READOUTS]
+    return sys_, np.stack([r.r for r in ros], 1), np.array([r.r0 for r in ros], complex)
+
+
+# --- the analysis -------------------------------------------------------------------------------
+@dataclass
+class Noise:
+    """The noise of a circuit at the frequencies ``freqs`` (Hz), all densities one-sided.
+
+    gain            -- Gv (V/V) or, for a current signal, Zt (ohm): the output per unit signal
+    output_psd      -- output noise, V^2/Hz, every generator, load in place
+    input_psd       -- output_psd / |gain|^2: V^2/Hz (A^2/Hz for a current signal)
+    en2, in2, corr  -- the equivalent input generators (V^2/Hz, A^2/Hz) and C = E[e conj(i)] (V A/Hz)
+    nf_db           -- spot noise figure for the signal's rs (inf without a noisy rs)
+    rs_opt, nf_min_db -- the optimum source resistance en/in and the noise figure there
+    power           -- per generator: output noise power over the band (V^2), or at the one
+                       frequency (V^2/Hz) when there is no band
+    """
+
+    freqs: np.ndarray
+    sources: list[Source]
+    gain: np.ndarray
+    output_psd: np.ndarray
+    input_psd: np.ndarray
+    en2: np.ndarray
+    in2: np.ndarray
+    corr: np.ndarray
+    nf_db: np.ndarray
+    rs_opt: np.ndarray
+    nf_min_db: np.ndarray
+    power: np.ndarray
+    signal_psd_t0: np.ndarray  # the output noise of rs at T0 (V^2/Hz), zero without rs
+    totals: dict = field(default_factory=dict)
+    at_index: int = 0
+    current_signal: bool = False
+
+    @property
+    def band(self) -> bool:
+        return len(self.freqs) > 1
+
+
+def log_weights(freqs: np.ndarray) -> np.ndarray:
+    """Weights w with sum(w * S) = integral of S df, by the trapezoid rule in ln f (S f d ln f).
+
+    On a log-spaced grid this is exact for S ~ 1/f and far closer than the trapezoid in f for
+    the power laws of noise spectra.
+
+    Examples
+    --------
+    >>> f = np.logspace(0, 3, 301)
+    >>> round(float(np.sum(log_weights(f) / f)), 9) == round(3 * math.log(10), 9)
+    True
+    """
+    f = np.asarray(freqs, float)
+    if f.size < 2:
+        return np.zeros(f.size)
+    x = np.log(f)
+    dx = np.diff(x)
+    w = np.zeros(f.size)
+    w[:-1] += dx / 2
+    w[1:] += dx / 2
+    return w * f
+
+
+def analyse(c: Circuit, freqs, dense: bool | None = None) -> Noise:
+    """The noise of ``c`` (small-signal parameters known) at ``freqs`` (Hz, positive).
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> c = loads("signal VS (a, gnd) 1 V, rs=1k\\nresistor R2 (a, gnd) 1k\\noutput (a, gnd)\\n")
+    >>> nz = analyse(c, np.array([1e3]))
+    >>> round(float(np.sqrt(nz.output_psd[0]) * 1e9), 4)  # sqrt(4 k 300 K * 500 ohm), nV/rtHz
+    2.8782
+    >>> round(float(nz.nf_db[0]), 4)  # R2 at 300 K against rs at 290 K: F = 1 + 300/290
+    3.0845
+    """
+    freqs = np.atleast_1d(np.asarray(freqs, float))
+    if not np.all(freqs > 0):
+        raise ValueError("noise is computed at positive frequencies")
+    sys_, R, r0 = _system(c)
+    srcs = noise_sources(c, sys_.stamper)
+    n, K, F = sys_.stamper.size, len(srcs), freqs.size
+    # the injections as one sparse list sorted by generator: reduceat sums each one's entries
+    rows = np.array([r for s in srcs for r, _ in s.injection], dtype=np.intp)
+    coef = np.array([v for s in srcs for _, v in s.injection], dtype=complex)
+    starts = np.cumsum([0] + [len(s.injection) for s in srcs[:-1]]).astype(np.intp)
+    white = np.array([s.white for s in srcs])
+    flat = np.array([s.flat for s in srcs])
+    corner = np.array([s.corner for s in srcs])
+    internal = np.array([not s.is_signal for s in srcs], bool)
+    sig_idx = [k for k, s in enumerate(srcs) if s.is_signal]
+    t_sig = srcs[sig_idx[0]].temp if sig_idx else None
+    weights = log_weights(freqs) if F > 1 else np.ones(1)
+
+    gain = np.empty(F, complex)
+    out_psd = np.empty(F)
+    sig_t0 = np.zeros(F)
+    en2, in2 = np.empty(F), np.empty(F)
+    corr = np.empty(F, complex)
+    power = np.zeros(K)
+    b = sys_.b
+    step = max(1, _BATCH_BYTES // (16 * 3 * max(n, rows.size, 1)))
+    for k0 in range(0, F, step):
+        fk = freqs[k0:k0 + step]
+        Y = fq.solve_many_adjoint(sys_, 2j * np.pi * fk, R, dense)  # (f, n, 3)
+        sig = np.einsum("fnm,n->fm", Y, b) + r0  # the signal's v_out, v_in, i_in per unit
+        gain[k0:k0 + step] = sig[:, 0]
+        with np.errstate(all="ignore"):
+            av = sig[:, 0] / sig[:, 1]
+            yin = sig[:, 2] / sig[:, 1]
+        if K:
+            H = np.add.reduceat(Y[:, rows, :] * coef[None, :, None], starts, axis=1)  # (f, K, 3)
+        else:
+            H = np.zeros((fk.size, 0, 3), complex)
+        S = white[None, :] * (flat[None, :] + corner[None, :] / fk[:, None])
+        p_out = np.abs(H[:, :, 0]) ** 2 * S
+        out_psd[k0:k0 + step] = p_out.sum(axis=1)
+        power += (weights[k0:k0 + step, None] * p_out).sum(axis=0)
+        if sig_idx:
+            sig_t0[k0:k0 + step] = p_out[:, sig_idx].sum(axis=1) * (T0 / t_sig)
+        with np.errstate(all="ignore"):
+            e = H[:, :, 0] / av[:, None] - H[:, :, 1]
+            i = H[:, :, 0] * (yin / av)[:, None] - H[:, :, 2]
+        Si = S * internal[None, :]
+        en2[k0:k0 + step] = (np.abs(e) ** 2 * Si).sum(axis=1)
+        in2[k0:k0 + step] = (np.abs(i) ** 2 * Si).sum(axis=1)
+        corr[k0:k0 + step] = (e * np.conj(i) * Si).sum(axis=1)
+    en2, in2, corr = _negligible(c, en2, in2, corr)
+    with np.errstate(all="ignore"):
+        input_psd = out_psd / np.abs(gain) ** 2
+        sig_out = out_psd - sig_t0 * (t_sig / T0) if sig_idx else out_psd
+        f_spot = np.where(sig_t0 > 0, 1 + sig_out / np.where(sig_t0 > 0, sig_t0, 1), np.inf)
+        nf_db = 10 * np.log10(f_spot)
+        rs_opt = np.sqrt(en2 / in2)
+        f_min = 1 + (np.sqrt(en2 * in2) + corr.real) / (2 * BOLTZMANN * T0)
+        nf_min_db = 10 * np.log10(f_min)
+    nz = Noise(freqs, srcs, gain, out_psd, input_psd, en2, in2, corr, nf_db, rs_opt, nf_min_db, power,
+               sig_t0, current_signal=c.signal.kind == "A")
+    nz.at_index = _midband(freqs, gain)
+    nz.totals = _totals(c, nz, weights)
+    return nz
+
+
+def _negligible(c: Circuit, en2, in2, corr):
+    """Zero a generator that is round-off against the other one.
+
+    An input at a virtual ground (an ideal op-amp's summing node) has Av -> infinity: its en
+    is zero in the limit, and what the arithmetic leaves is round-off (1e-40 V/√Hz) that
+    would make a meaningless correlation. Likewise in for an input that draws no current.
+    The scale is the source resistance (or |Rin| when there is none): a generator whose
+    share en^2 or Rs^2 in^2 is below 1e-20 of the other is taken as zero.
+    """
+    rs = c.signal.rs
+    r = rs if 0 < rs < math.inf else 1.0
+    tiny_e = en2 < 1e-20 * in2 * r * r
+    tiny_i = in2 * r * r < 1e-20 * en2
+    en2 = np.where(tiny_e, 0.0, en2)
+    in2 = np.where(tiny_i, 0.0, in2)
+    return en2, in2, np.where(tiny_e | tiny_i, 0j, corr)
+
+
+def _midband(freqs: np.ndarray, gain: np.ndarray) -> int:
+    """The index where the optimum is reported: the middle of the flat top of |gain| on the grid
+    (the whole sweep for a frequency-independent circuit), else the sweep's middle point."""
+    if freqs.size == 1:
+        return 0
+    run = fq._flat_run(freqs, gain)
+    if run is None:
+        return freqs.size // 2
+    return run[len(run) // 2]
+
+
+def _totals(c: Circuit, nz: Noise, weights: np.ndarray) -> dict:
+    """Integrated band totals (None without a band) and the signal-to-noise ratio."""
+    if not nz.band:
+        return {"band_hz": [float(nz.freqs[0])] * 2, "output_rms": None, "input_rms": None,
+                "nf_db": float(nz.nf_db[0]), "snr_db": None}
+    out2 = float(np.sum(weights * nz.output_psd))
+    in2 = float(np.sum(weights * nz.input_psd))
+    s0 = float(np.sum(weights * nz.signal_psd_t0))
+    t_sig = next((s.temp for s in nz.sources if s.is_signal), None)
+    own = s0 * (t_sig / T0) if t_sig else 0.0
+    nf = 10 * math.log10(1 + (out2 - own) / s0) if s0 > 0 else math.inf
+    g = abs(nz.gain[nz.at_index])
+    amp = abs(c.signal.value)
+    snr = 20 * math.log10(g * amp / math.sqrt(2) / math.sqrt(out2)) if out2 > 0 and amp > 0 and g > 0 else None
+    return {"band_hz": [float(nz.freqs[0]), float(nz.freqs[-1])], "output_rms": math.sqrt(out2),
+            "input_rms": math.sqrt(in2), "nf_db": nf, "snr_db": snr}
+
+
+def contributions(nz: Noise) -> list[dict]:
+    """Each generator's share of the output noise power (over the band, or at the one frequency),
+    largest first; generators of one element, kind and place are one row."""
+    total = float(np.sum(nz.power))
+    rows: dict[tuple, float] = {}
+    for s, p in zip(nz.sources, nz.power):
+        key = (s.element, s.kind, s.where)
+        rows[key] = rows.get(key, 0.0) + float(p)
+    out = [{"element": e, "kind": k, "where": w, "share": (p / total if total > 0 else 0.0), "power": p}
+           for (e, k, w), p in rows.items()]
+    out.sort(key=lambda r: -r["share"])
+    return out
