@@ -301,27 +301,35 @@ class Noise:
         return len(self.freqs) > 1
 
 
-def log_weights(freqs: np.ndarray) -> np.ndarray:
-    """Weights w with sum(w * S) = integral of S df, by the trapezoid rule in ln f (S f d ln f).
+def band_integral(freqs: np.ndarray, psd: np.ndarray) -> np.ndarray:
+    """The integral of ``psd`` over ``freqs`` (along axis 0), exact for piecewise power laws.
 
-    On a log-spaced grid this is exact for S ~ 1/f and far closer than the trapezoid in f for
-    the power laws of noise spectra.
+    Between two grid points the density is taken as S = S_a (f/f_a)^alpha through both end
+    values (a straight line on log-log axes), which is what white, 1/f and the 1/f^2 roll-off
+    of a pole are. With P = S f that integral is ln(f_b/f_a) times the logarithmic mean of
+    P_a and P_b, (P_b - P_a)/ln(P_b/P_a); where an end value is zero, the arithmetic mean
+    (the trapezoid in ln f).
 
     Examples
     --------
-    >>> f = np.logspace(0, 3, 301)
-    >>> round(float(np.sum(log_weights(f) / f)), 9) == round(3 * math.log(10), 9)
+    >>> f = np.logspace(0, 3, 7)
+    >>> round(float(band_integral(f, 1.0 / f)), 12) == round(3 * math.log(10), 12)   # 1/f: exact
     True
+    >>> round(float(band_integral(f, np.ones(7))), 9)   # white: f_b - f_a
+    999.0
     """
     f = np.asarray(freqs, float)
+    S = np.asarray(psd, float)
     if f.size < 2:
-        return np.zeros(f.size)
-    x = np.log(f)
-    dx = np.diff(x)
-    w = np.zeros(f.size)
-    w[:-1] += dx / 2
-    w[1:] += dx / 2
-    return w * f
+        return np.zeros(S.shape[1:])
+    P = S * f.reshape((-1,) + (1,) * (S.ndim - 1))
+    pa, pb = P[:-1], P[1:]
+    lr = np.log(f[1:] / f[:-1]).reshape((-1,) + (1,) * (S.ndim - 1))
+    with np.errstate(all="ignore"):
+        d = np.log(pb / pa)
+        lmean = np.where(np.abs(d) > 1e-9, (pb - pa) / d, 0.5 * (pa + pb))
+    mean = np.where((pa > 0) & (pb > 0), lmean, 0.5 * (pa + pb))
+    return np.sum(lr * mean, axis=0)
 
 
 def analyse(c: Circuit, freqs, dense: bool | None = None) -> Noise:
@@ -353,7 +361,6 @@ def analyse(c: Circuit, freqs, dense: bool | None = None) -> Noise:
     internal = np.array([not s.is_signal for s in srcs], bool)
     sig_idx = [k for k, s in enumerate(srcs) if s.is_signal]
     t_sig = srcs[sig_idx[0]].temp if sig_idx else None
-    weights = log_weights(freqs) if F > 1 else np.ones(1)
 
     gain = np.empty(F, complex)
     out_psd = np.empty(F)
@@ -361,6 +368,7 @@ def analyse(c: Circuit, freqs, dense: bool | None = None) -> Noise:
     en2, in2 = np.empty(F), np.empty(F)
     corr = np.empty(F, complex)
     power = np.zeros(K)
+    prev = None  # the last point of the previous batch: the band integral runs across batches
     b = sys_.b
     step = max(1, _BATCH_BYTES // (16 * 3 * max(n, rows.size, 1)))
     for k0 in range(0, F, step):
@@ -378,7 +386,12 @@ def analyse(c: Circuit, freqs, dense: bool | None = None) -> Noise:
         S = white[None, :] * (flat[None, :] + corner[None, :] / fk[:, None])
         p_out = np.abs(H[:, :, 0]) ** 2 * S
         out_psd[k0:k0 + step] = p_out.sum(axis=1)
-        power += (weights[k0:k0 + step, None] * p_out).sum(axis=0)
+        if F == 1:
+            power += p_out[0]
+        else:
+            ff, pp = (fk, p_out) if prev is None else (np.r_[prev[0], fk], np.vstack([prev[1], p_out]))
+            power += band_integral(ff, pp)
+            prev = (fk[-1:], p_out[-1:])
         if sig_idx:
             sig_t0[k0:k0 + step] = p_out[:, sig_idx].sum(axis=1) * (T0 / t_sig)
         with np.errstate(all="ignore"):
@@ -400,7 +413,7 @@ def analyse(c: Circuit, freqs, dense: bool | None = None) -> Noise:
     nz = Noise(freqs, srcs, gain, out_psd, input_psd, en2, in2, corr, nf_db, rs_opt, nf_min_db, power,
                sig_t0, current_signal=c.signal.kind == "A")
     nz.at_index = _midband(freqs, gain)
-    nz.totals = _totals(c, nz, weights)
+    nz.totals = _totals(c, nz)
     return nz
 
 
@@ -433,16 +446,21 @@ def _midband(freqs: np.ndarray, gain: np.ndarray) -> int:
     return run[len(run) // 2]
 
 
-def _totals(c: Circuit, nz: Noise, weights: np.ndarray) -> dict:
-    """Integrated band totals (None without a band) and the signal-to-noise ratio."""
+def _totals(c: Circuit, nz: Noise) -> dict:
+    """Integrated band totals (None without a band) and the signal-to-noise ratio.
+
+    The output power is the sum of the generators' own band integrals (so the contributions
+    add up to it); the average noise factor is the ratio of the band integrals of the other
+    generators' and of the source's (at T0) output noise (IEEE average noise figure).
+    """
     if not nz.band:
         return {"band_hz": [float(nz.freqs[0])] * 2, "output_rms": None, "input_rms": None,
                 "nf_db": float(nz.nf_db[0]), "snr_db": None}
-    out2 = float(np.sum(weights * nz.output_psd))
-    in2 = float(np.sum(weights * nz.input_psd))
-    s0 = float(np.sum(weights * nz.signal_psd_t0))
+    out2 = float(np.sum(nz.power))
+    in2 = float(band_integral(nz.freqs, nz.input_psd))
+    own = float(sum(p for s, p in zip(nz.sources, nz.power) if s.is_signal))
     t_sig = next((s.temp for s in nz.sources if s.is_signal), None)
-    own = s0 * (t_sig / T0) if t_sig else 0.0
+    s0 = own * T0 / t_sig if t_sig else 0.0
     nf = 10 * math.log10(1 + (out2 - own) / s0) if s0 > 0 else math.inf
     g = abs(nz.gain[nz.at_index])
     amp = abs(c.signal.value)
