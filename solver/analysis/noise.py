@@ -326,9 +326,10 @@ def band_integral(freqs: np.ndarray, psd: np.ndarray) -> np.ndarray:
     pa, pb = P[:-1], P[1:]
     lr = np.log(f[1:] / f[:-1]).reshape((-1,) + (1,) * (S.ndim - 1))
     with np.errstate(all="ignore"):
-        d = np.log(pb / pa)
-        lmean = np.where(np.abs(d) > 1e-9, (pb - pa) / d, 0.5 * (pa + pb))
-    mean = np.where((pa > 0) & (pb > 0), lmean, 0.5 * (pa + pb))
+        lp = np.log(P)
+        d = lp[1:] - lp[:-1]
+        mean = np.where(np.abs(d) > 1e-9, (pb - pa) / d, 0.5 * (pa + pb))
+    mean = np.where(np.isfinite(d), mean, 0.5 * (pa + pb))  # a zero end value: the trapezoid
     return np.sum(lr * mean, axis=0)
 
 
@@ -349,15 +350,12 @@ def analyse(c: Circuit, freqs, dense: bool | None = None) -> Noise:
     if not np.all(freqs > 0):
         raise ValueError("noise is computed at positive frequencies")
     sys_, R, r0 = _system(c)
-    srcs = noise_sources(c, sys_.stamper)
+    plan = _TransferPlan(noise_sources(c, sys_.stamper))
+    srcs = plan.srcs  # in the plan's order: two-node generators, then one-node, then the rest
     n, K, F = sys_.stamper.size, len(srcs), freqs.size
-    # the injections as one sparse list sorted by generator: reduceat sums each one's entries
-    rows = np.array([r for s in srcs for r, _ in s.injection], dtype=np.intp)
-    coef = np.array([v for s in srcs for _, v in s.injection], dtype=complex)
-    starts = np.cumsum([0] + [len(s.injection) for s in srcs[:-1]]).astype(np.intp)
-    white = np.array([s.white for s in srcs])
-    flat = np.array([s.flat for s in srcs])
-    corner = np.array([s.corner for s in srcs])
+    white = np.array([s.white for s in srcs])[None, :]
+    flat = np.array([s.flat for s in srcs])[None, :]
+    corner = np.array([s.corner for s in srcs])[None, :]
     internal = np.array([not s.is_signal for s in srcs], bool)
     sig_idx = [k for k, s in enumerate(srcs) if s.is_signal]
     t_sig = srcs[sig_idx[0]].temp if sig_idx else None
@@ -370,21 +368,24 @@ def analyse(c: Circuit, freqs, dense: bool | None = None) -> Noise:
     power = np.zeros(K)
     prev = None  # the last point of the previous batch: the band integral runs across batches
     b = sys_.b
-    step = max(1, _BATCH_BYTES // (16 * 3 * max(n, rows.size, 1)))
+    step = max(1, _BATCH_BYTES // (16 * 3 * max(n, K, 1)))
     for k0 in range(0, F, step):
         fk = freqs[k0:k0 + step]
-        Y = fq.solve_many_adjoint(sys_, 2j * np.pi * fk, R, dense)  # (f, n, 3)
-        sig = np.einsum("fnm,n->fm", Y, b) + r0  # the signal's v_out, v_in, i_in per unit
+        nf = fk.size
+        Y = fq.solve_many_adjoint(sys_, 2j * np.pi * fk, R, dense)  # (f, 3, n)
+        sig = Y @ b + r0[None, :]  # the signal's v_out, v_in, i_in per unit, (f, 3)
         gain[k0:k0 + step] = sig[:, 0]
         with np.errstate(all="ignore"):
-            av = sig[:, 0] / sig[:, 1]
-            yin = sig[:, 2] / sig[:, 1]
-        if K:
-            H = np.add.reduceat(Y[:, rows, :] * coef[None, :, None], starts, axis=1)  # (f, K, 3)
-        else:
-            H = np.zeros((fk.size, 0, 3), complex)
-        S = white[None, :] * (flat[None, :] + corner[None, :] / fk[:, None])
-        p_out = np.abs(H[:, :, 0]) ** 2 * S
+            a_e = sig[:, 1] / sig[:, 0]            # 1/Av
+            a_i = sig[:, 2] / sig[:, 0]            # 1/(Av Rin)
+            # the adjoint vectors of e_k = H_k/Av - v_k and i_k = H_k/(Av Rin) - j_k: the
+            # combination is made once on n-vectors, not on every generator's transfers
+            Y[:, 1] = Y[:, 0] * a_e[:, None] - Y[:, 1]
+            Y[:, 2] = Y[:, 0] * a_i[:, None] - Y[:, 2]
+        H = plan.apply(Y)  # (f, 3, K)
+        H0, e, i = H[:, 0], H[:, 1], H[:, 2]
+        S = white * (flat + corner / fk[:, None])  # (f, K)
+        p_out = S * (H0.real ** 2 + H0.imag ** 2)
         out_psd[k0:k0 + step] = p_out.sum(axis=1)
         if F == 1:
             power += p_out[0]
@@ -394,13 +395,10 @@ def analyse(c: Circuit, freqs, dense: bool | None = None) -> Noise:
             prev = (fk[-1:], p_out[-1:])
         if sig_idx:
             sig_t0[k0:k0 + step] = p_out[:, sig_idx].sum(axis=1) * (T0 / t_sig)
-        with np.errstate(all="ignore"):
-            e = H[:, :, 0] / av[:, None] - H[:, :, 1]
-            i = H[:, :, 0] * (yin / av)[:, None] - H[:, :, 2]
-        Si = S * internal[None, :]
-        en2[k0:k0 + step] = (np.abs(e) ** 2 * Si).sum(axis=1)
-        in2[k0:k0 + step] = (np.abs(i) ** 2 * Si).sum(axis=1)
-        corr[k0:k0 + step] = (e * np.conj(i) * Si).sum(axis=1)
+            S[:, sig_idx] = 0.0  # the source's own rs is not part of en, in
+        en2[k0:k0 + step] = (S * (e.real ** 2 + e.imag ** 2)).sum(axis=1)
+        in2[k0:k0 + step] = (S * (i.real ** 2 + i.imag ** 2)).sum(axis=1)
+        corr[k0:k0 + step] = (S * e * np.conj(i)).sum(axis=1)
     en2, in2, corr = _negligible(c, en2, in2, corr)
     with np.errstate(all="ignore"):
         input_psd = out_psd / np.abs(gain) ** 2
@@ -415,6 +413,50 @@ def analyse(c: Circuit, freqs, dense: bool | None = None) -> Noise:
     nz.at_index = _midband(freqs, gain)
     nz.totals = _totals(c, nz)
     return nz
+
+
+class _TransferPlan:
+    """B^T Y, the transfers of every generator from the adjoint solutions, as gathers.
+
+    Most generators are a current between two nodes (b = e_b - e_a: H = Y[b] - Y[a]) or from a
+    node to ground (H = +-Y[a]); those take one or two gathers and no products. The rest (an
+    op-amp's en, whose injection is its own stamp's column) are summed entry by entry. The
+    generators are put in that order (``srcs``), so each kind fills one slice of H.
+    """
+
+    def __init__(self, srcs: list[Source]):
+        def kind(s):
+            inj = s.injection
+            if len(inj) == 2 and inj[0][1] == -1.0 and inj[1][1] == 1.0:
+                return 0
+            if len(inj) == 1 and inj[0][1] in (1.0, -1.0):
+                return 1
+            return 2
+        kinds = [kind(s) for s in srcs]
+        self.srcs = [s for k in (0, 1, 2) for s, kk in zip(srcs, kinds) if kk == k]
+        self.n_pair = kinds.count(0)
+        self.n_single = kinds.count(1)
+        pairs = self.srcs[:self.n_pair]
+        singles = self.srcs[self.n_pair:self.n_pair + self.n_single]
+        self.rb = np.array([s.injection[1][0] for s in pairs], dtype=np.intp)
+        self.ra = np.array([s.injection[0][0] for s in pairs], dtype=np.intp)
+        self.r1 = np.array([s.injection[0][0] for s in singles], dtype=np.intp)
+        self.neg = np.array([s.injection[0][1] < 0 for s in singles], dtype=bool)
+        self.other = self.srcs[self.n_pair + self.n_single:]
+
+    def apply(self, Y: np.ndarray) -> np.ndarray:
+        """Y (f, m, n) -> H (f, m, K)."""
+        K, p, q = len(self.srcs), self.n_pair, self.n_pair + self.n_single
+        H = np.empty(Y.shape[:2] + (K,), complex)
+        if p:
+            np.subtract(np.take(Y, self.rb, axis=2), np.take(Y, self.ra, axis=2), out=H[:, :, :p])
+        if q > p:
+            H[:, :, p:q] = np.take(Y, self.r1, axis=2)
+            if self.neg.any():
+                H[:, :, p:q][:, :, self.neg] *= -1
+        for k, s in enumerate(self.other, start=q):
+            H[:, :, k] = sum(v * Y[:, :, r] for r, v in s.injection)
+        return H
 
 
 def _negligible(c: Circuit, en2, in2, corr):
