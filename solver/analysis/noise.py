@@ -87,7 +87,8 @@ KINDS = ("thermal", "shot", "flicker", "en", "in")
 #: what the analysis assumes, for the reports
 ASSUMPTIONS = ("all noise generators are uncorrelated: collector and base shot noise of a BJT "
                "(their correlation matters only near f_T), a base's shot and flicker noise, an "
-               "op-amp's en and the in of its two inputs",
+               "op-amp's en and the in of its two inputs; en and in of the circuit share "
+               "generators (one collector current appears in both), and that correlation is computed",
                "rpi, re, ro and rd are small-signal slopes and carry no thermal noise; controlled "
                "sources, capacitors and inductors are noiseless",
                "densities are one-sided; elements are at 300 K unless they give temp=, the source "
