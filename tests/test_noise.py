@@ -445,3 +445,33 @@ def test_sparse_and_dense_paths_agree():
     ok = np.abs(sparse.gain) > 1e-6
     assert ok.sum() > 10
     assert np.allclose(sparse.en2[ok], dense.en2[ok], rtol=1e-6)
+
+
+def test_noise_goes_through_the_pipeline(cli, netlist):
+    # the same topology checks as every command (a floating pair: no path to the reference,
+    # Chua & Lin, Computer-Aided Analysis of Electronic Circuits, 1975, from memory), and the
+    # analysis writes nothing onto the circuit
+    p = netlist("signal VS (in, gnd) 1 V, rs=50\nresistor R1 (in, out) 1k\nload RL (out, gnd) 1k\n"
+                "resistor RA (x, y) 1k\nresistor RB (x, y) 2k\n")
+    r = cli("noise", p, "--at", "1kHz")
+    assert r.returncode == 2 and "'x', 'y' have no path to the reference" in r.stderr
+    c = loads("supply VCC (vcc, gnd) 12 V\nsignal VS (in, gnd) 1 mV, rs=600\ncapacitor C1 (in, b) 10u\n"
+              "resistor R1 (vcc, b) 47k\nresistor R2 (b, gnd) 10k\nresistor RC (vcc, c) 4k7\n"
+              "resistor RE (e, gnd) 1k\nnpn Q1 (c, b, e) beta=150, fc=100\noutput (c, gnd)\n")
+    before = (dict(c.values), [dict(d.ss) for d in c.devices], dict(c.noise))
+    res = solver.noise(c, at=1e3)
+    assert res.bias is not None and res.circuit is not c
+    assert (dict(c.values), [dict(d.ss) for d in c.devices], dict(c.noise)) == before
+    # the bias-solved transistor's shot noise uses its solved collector current
+    ic = res.circuit.devices[0].ss["ic"]
+    shot = next(s for s in res.noise.sources if s.where == "collector")
+    assert shot.white == pytest.approx(2 * Q_E * ic, rel=1e-12)
+
+
+def test_a_circuit_without_noise_sources():
+    res = solver.noise(loads("signal VS (in, gnd) 1 V\nvcvs E1 (out, gnd) (in, gnd) 2\noutput (out, gnd)\n"),
+                       10, 1e3, points=5)
+    d = res.to_dict()
+    assert d["output_density"] == [0.0] * 5 and d["contributions"] == []
+    assert d["nf_db"] == ["inf"] * 5 and d["total"]["snr_db"] is None
+    assert "contributions" in res.text()
