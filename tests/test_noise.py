@@ -475,3 +475,21 @@ def test_a_circuit_without_noise_sources():
     assert d["output_density"] == [0.0] * 5 and d["contributions"] == []
     assert d["nf_db"] == ["inf"] * 5 and d["total"]["snr_db"] is None
     assert "contributions" in res.text()
+
+
+def test_a_poor_schur_solution_falls_back_to_lu(monkeypatch):
+    # the residual of every point is checked against G and C themselves: a wrong answer from
+    # the Schur route is replaced by an LU solve of that point
+    from solver.analysis import frequency as fq
+    c = loads(_random_circuit(7))
+    sys_, R, _ = nm._system(c)
+    s = 2j * np.pi * np.logspace(1, 6, fq.QZ_MIN_POINTS + 2)
+    good = fq.solve_many_adjoint(sys_, s, R)
+    real_qz = fq._adjoint_qz
+
+    def spoiled(*a):
+        y = real_qz(*a)
+        y[3] *= 1.001
+        return y
+    monkeypatch.setattr(fq, "_adjoint_qz", spoiled)
+    assert np.allclose(fq.solve_many_adjoint(sys_, s, R), good, rtol=1e-9)
