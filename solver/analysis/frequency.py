@@ -343,9 +343,15 @@ def solve_many_adjoint(sys_: System, s: np.ndarray, R: np.ndarray, dense: bool |
         # gain of 1e5 beside 1 ohm), 5e-4 for an answer wrong by 0.1 %.
         G, C = sys_.dense("G"), sys_.dense("C")
         with np.errstate(all="ignore"):
-            res = np.abs(out @ G + s[:, None, None] * (out @ C) - R.T[None, :, :])
-            ay = np.abs(out)
-            scale = ay @ np.abs(G) + np.abs(s)[:, None, None] * (ay @ np.abs(C)) + np.abs(R.T)[None, :, :]
+            F, m = out.shape[:2]
+            flat = out.reshape(F * m, n)  # one matrix product each, not one per frequency
+
+            def times(a, M):
+                return np.dot(a, M).reshape(F, m, n)
+            res = np.abs(times(flat, G) + s[:, None, None] * times(flat, C) - R.T[None, :, :])
+            ay = np.abs(flat)
+            scale = times(ay, np.abs(G)) + np.abs(s)[:, None, None] * times(ay, np.abs(C)) \
+                + np.abs(R.T)[None, :, :]
             err = res.max(axis=2) / scale.max(axis=2)
             bad = ~(err.max(axis=1) <= QZ_RESIDUAL)
         if bad.any():
@@ -378,10 +384,10 @@ def _adjoint_qz(sys_: System, s: np.ndarray, R: np.ndarray) -> np.ndarray:
 
     QZ gives unitary Q, Z with G^T = Q T_G Z^H and C^T = Q T_C Z^H, T_G and T_C upper
     triangular, so each frequency costs one triangular solve (T_G + s T_C) W = Q^H R,
-    Y = Z W, done for all frequencies at once, row by row: O(n^2) per frequency instead of
-    an O(n^3) LU. Rows and columns are first scaled to unit size (MNA mixes siemens and
-    farads), which leaves the solution exact and the reduction well balanced. Returns
-    shape (len(s), m, n).
+    Y = Z W, done for a batch of frequencies at once, row by row: O(n^2) per frequency
+    instead of an O(n^3) LU. Rows and columns are first scaled to unit size (MNA mixes
+    siemens and farads), which leaves the solution exact and the reduction well balanced.
+    Frequencies go in batches of :data:`_QZ_BATCH_ENTRIES`. Returns shape (len(s), m, n).
 
     References
     ----------
@@ -403,23 +409,33 @@ def _adjoint_qz(sys_: System, s: np.ndarray, R: np.ndarray) -> np.ndarray:
     Gs = G / dr[:, None] / dc[None, :]
     Cs = C / dr[:, None] / dc[None, :]
     TG, TC, Q, Z = sla.qz(Gs, Cs, output="complex")
-    TG, TC = np.ascontiguousarray(TG), np.ascontiguousarray(TC)
+    TG, TC, Z = np.ascontiguousarray(TG), np.ascontiguousarray(TC), np.ascontiguousarray(Z)
     QR = Q.conj().T @ (R / dr[:, None])
-    m, F = R.shape[1], s.size
-    # W[i] holds unknown i for every (read-out, frequency): each row of the back substitution
-    # is two matrix-vector products over all of them at once
-    W = np.empty((n, m, F), complex)
-    with np.errstate(all="ignore"):
-        for i in range(n - 1, -1, -1):
-            acc = np.repeat(QR[i][:, None], F, axis=1)
-            if i < n - 1:
-                rest = W[i + 1:].reshape(n - i - 1, m * F)
-                # np.dot (BLAS gemv); a 1-d @ 2-d product here took a slow path in numpy 2
-                acc -= np.dot(TG[i, i + 1:], rest).reshape(m, F)
-                acc -= s[None, :] * np.dot(TC[i, i + 1:], rest).reshape(m, F)
-            W[i] = acc / (TG[i, i] + s * TC[i, i])[None, :]
-        Y = np.dot(Z, W.reshape(n, m * F)).reshape(n, m, F) / dc[:, None, None]
-    return np.ascontiguousarray(Y.transpose(2, 1, 0))
+    m = R.shape[1]
+    out = np.empty((s.size, m, n), complex)
+    batch = max(4, _QZ_BATCH_ENTRIES // (m * n))
+    for k0 in range(0, s.size, batch):
+        sk = s[k0:k0 + batch]
+        F = sk.size
+        # column-oriented back substitution over a batch of frequencies: once unknown i is
+        # known, its part is taken off every row above it. numpy broadcasting, not one BLAS
+        # call per row: OpenBLAS threads even these small products, and a hundred thread
+        # hand-offs per batch cost more than the arithmetic, far more on a shared machine
+        acc = np.repeat(QR[:, :, None], F, axis=2)  # (n, m, F)
+        with np.errstate(all="ignore"):
+            for i in range(n - 1, -1, -1):
+                w = acc[i] / (TG[i, i] + sk * TC[i, i])[None, :]
+                acc[i] = w
+                if i:
+                    acc[:i] -= TG[:i, i, None, None] * w[None]
+                    acc[:i] -= TC[:i, i, None, None] * (sk[None, :] * w)[None]
+            Y = np.dot(Z, acc.reshape(n, m * F)).reshape(n, m, F) / dc[:, None, None]  # one gemm
+        out[k0:k0 + F] = Y.transpose(2, 1, 0)
+    return out
+
+
+#: entries (unknowns x read-outs x frequencies) per batch of the Schur route (4 MB)
+_QZ_BATCH_ENTRIES = 2 ** 18
 
 
 def _adjoint_lu(sys_: System, s: np.ndarray, R: np.ndarray) -> np.ndarray:
