@@ -401,14 +401,17 @@ def test_cli_text_files_and_refusals(cli, tmp_path):
 
 
 def test_batches_give_the_same_result(monkeypatch):
-    # the band integral runs across frequency batches: a tiny batch size changes nothing
+    # the band integral runs across frequency batches and generator blocks: tiny ones change nothing
     c = loads(_random_circuit(5))
     f = np.logspace(0, 7, 57)
     whole = nm.analyse(c, f)
     monkeypatch.setattr(nm, "_BATCH_BYTES", 1)
+    monkeypatch.setattr(nm, "_BLOCK_BYTES", 1)  # generators in blocks of 4 too
     pieces = nm.analyse(c, f)
+    assert len(pieces.sources) > 8
     assert np.allclose(pieces.power, whole.power, rtol=1e-12)
     assert np.allclose(pieces.output_psd, whole.output_psd, rtol=1e-12)
+    assert np.allclose(pieces.en2, whole.en2, rtol=1e-12) and np.allclose(pieces.corr, whole.corr, rtol=1e-10)
 
 
 @pytest.mark.parametrize("path", EXAMPLES[:6] + ["random"], ids=lambda p: getattr(p, "name", p))

@@ -94,6 +94,8 @@ ASSUMPTIONS = ("all noise generators are uncorrelated: collector and base shot n
                "densities are one-sided; elements are at 300 K unless they give temp=, the source "
                "at T0 = 290 K for the noise figure")
 _BATCH_BYTES = 48 * 2 ** 20
+#: the generators' transfers are worked on in blocks of about this size (within a CPU cache)
+_BLOCK_BYTES = 2 ** 20
 
 
 @dataclass(frozen=True)
@@ -362,20 +364,21 @@ def analyse(c: Circuit, freqs, dense: bool | None = None) -> Noise:
     t_sig = srcs[sig_idx[0]].temp if sig_idx else None
 
     gain = np.empty(F, complex)
-    out_psd = np.empty(F)
+    out_psd = np.zeros(F)
     sig_t0 = np.zeros(F)
-    en2, in2 = np.empty(F), np.empty(F)
-    corr = np.empty(F, complex)
+    en2, in2 = np.zeros(F), np.zeros(F)
+    corr = np.zeros(F, complex)
     power = np.zeros(K)
-    prev = None  # the last point of the previous batch: the band integral runs across batches
+    last = None  # each generator's output PSD at the previous batch's last point (band integral)
     b = sys_.b
-    step = max(1, _BATCH_BYTES // (16 * 3 * max(n, K, 1)))
+    step = max(1, _BATCH_BYTES // (16 * 3 * max(n, 1)))
     for k0 in range(0, F, step):
         fk = freqs[k0:k0 + step]
         nf = fk.size
+        sl = slice(k0, k0 + nf)
         Y = fq.solve_many_adjoint(sys_, 2j * np.pi * fk, R, dense)  # (f, 3, n)
         sig = Y @ b + r0[None, :]  # the signal's v_out, v_in, i_in per unit, (f, 3)
-        gain[k0:k0 + step] = sig[:, 0]
+        gain[sl] = sig[:, 0]
         with np.errstate(all="ignore"):
             a_e = sig[:, 1] / sig[:, 0]            # 1/Av
             a_i = sig[:, 2] / sig[:, 0]            # 1/(Av Rin)
@@ -383,23 +386,33 @@ def analyse(c: Circuit, freqs, dense: bool | None = None) -> Noise:
             # combination is made once on n-vectors, not on every generator's transfers
             Y[:, 1] = Y[:, 0] * a_e[:, None] - Y[:, 1]
             Y[:, 2] = Y[:, 0] * a_i[:, None] - Y[:, 2]
-        H = plan.apply(Y)  # (f, 3, K)
-        H0, e, i = H[:, 0], H[:, 1], H[:, 2]
-        S = white * (flat + corner / fk[:, None])  # (f, K)
-        p_out = S * (H0.real ** 2 + H0.imag ** 2)
-        out_psd[k0:k0 + step] = p_out.sum(axis=1)
-        if F == 1:
-            power += p_out[0]
-        else:
-            ff, pp = (fk, p_out) if prev is None else (np.r_[prev[0], fk], np.vstack([prev[1], p_out]))
-            power += band_integral(ff, pp)
-            prev = (fk[-1:], p_out[-1:])
-        if sig_idx:
-            sig_t0[k0:k0 + step] = p_out[:, sig_idx].sum(axis=1) * (T0 / t_sig)
-            S[:, sig_idx] = 0.0  # the source's own rs is not part of en, in
-        en2[k0:k0 + step] = (S * (e.real ** 2 + e.imag ** 2)).sum(axis=1)
-        in2[k0:k0 + step] = (S * (i.real ** 2 + i.imag ** 2)).sum(axis=1)
-        corr[k0:k0 + step] = (S * e * np.conj(i)).sum(axis=1)
+        # the generators a block at a time, so that each block's transfers stay in cache
+        kstep = max(4, _BLOCK_BYTES // (16 * 3 * nf))
+        for j0 in range(0, K, kstep):
+            j1 = min(K, j0 + kstep)
+            H = plan.apply(Y, j0, j1)  # (f, 3, block)
+            H0, e, i = H[:, 0], H[:, 1], H[:, 2]
+            S = white[:, j0:j1] * (flat[:, j0:j1] + corner[:, j0:j1] / fk[:, None])  # (f, block)
+            p_out = S * (H0.real ** 2 + H0.imag ** 2)
+            out_psd[sl] += p_out.sum(axis=1)
+            if F == 1:
+                power[j0:j1] += p_out[0]
+            elif last is None:
+                power[j0:j1] += band_integral(fk, p_out)
+            else:
+                power[j0:j1] += band_integral(np.r_[freqs[k0 - 1], fk], np.vstack([last[None, j0:j1], p_out]))
+            if j0 == 0:
+                last_next = np.empty(K)
+            last_next[j0:j1] = p_out[-1]
+            own = [k - j0 for k in sig_idx if j0 <= k < j1]
+            if own:
+                sig_t0[sl] += p_out[:, own].sum(axis=1) * (T0 / t_sig)
+                S[:, own] = 0.0  # the source's own rs is not part of en, in
+            en2[sl] += (S * (e.real ** 2 + e.imag ** 2)).sum(axis=1)
+            in2[sl] += (S * (i.real ** 2 + i.imag ** 2)).sum(axis=1)
+            corr[sl] += (S * e * np.conj(i)).sum(axis=1)
+        if K:
+            last = last_next
     en2, in2, corr = _negligible(c, en2, in2, corr)
     with np.errstate(all="ignore"):
         input_psd = out_psd / np.abs(gain) ** 2
@@ -445,18 +458,24 @@ class _TransferPlan:
         self.neg = np.array([s.injection[0][1] < 0 for s in singles], dtype=bool)
         self.other = self.srcs[self.n_pair + self.n_single:]
 
-    def apply(self, Y: np.ndarray) -> np.ndarray:
-        """Y (f, m, n) -> H (f, m, K)."""
-        K, p, q = len(self.srcs), self.n_pair, self.n_pair + self.n_single
-        H = np.empty(Y.shape[:2] + (K,), complex)
-        if p:
-            np.subtract(np.take(Y, self.rb, axis=2), np.take(Y, self.ra, axis=2), out=H[:, :, :p])
-        if q > p:
-            H[:, :, p:q] = np.take(Y, self.r1, axis=2)
-            if self.neg.any():
-                H[:, :, p:q][:, :, self.neg] *= -1
-        for k, s in enumerate(self.other, start=q):
-            H[:, :, k] = sum(v * Y[:, :, r] for r, v in s.injection)
+    def apply(self, Y: np.ndarray, lo: int = 0, hi: int | None = None) -> np.ndarray:
+        """Y (f, m, n) -> H (f, m, hi - lo), the transfers of generators lo to hi."""
+        hi = len(self.srcs) if hi is None else hi
+        p, q = self.n_pair, self.n_pair + self.n_single
+        H = np.empty(Y.shape[:2] + (hi - lo,), complex)
+        a, z = max(lo, 0), min(hi, p)
+        if a < z:
+            np.subtract(np.take(Y, self.rb[a:z], axis=2), np.take(Y, self.ra[a:z], axis=2),
+                        out=H[:, :, a - lo:z - lo])
+        a, z = max(lo, p), min(hi, q)
+        if a < z:
+            part = np.take(Y, self.r1[a - p:z - p], axis=2)
+            neg = self.neg[a - p:z - p]
+            if neg.any():
+                part[:, :, neg] *= -1
+            H[:, :, a - lo:z - lo] = part
+        for k in range(max(lo, q), hi):
+            H[:, :, k - lo] = sum(v * Y[:, :, r] for r, v in self.srcs[k].injection)
         return H
 
 
