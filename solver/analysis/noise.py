@@ -117,11 +117,6 @@ class Source:
     temp: float | None = None
     is_signal: bool = False
 
-    @property
-    def current(self) -> bool:
-        """True for a current generator (A^2/Hz), False for a voltage one (V^2/Hz)."""
-        return self.kind != "en"
-
     def psd(self, f: np.ndarray) -> np.ndarray:
         f = np.asarray(f, float)
         return self.white * (self.flat + self.corner / f)
@@ -359,7 +354,6 @@ def analyse(c: Circuit, freqs, dense: bool | None = None) -> Noise:
     white = np.array([s.white for s in srcs])[None, :]
     flat = np.array([s.flat for s in srcs])[None, :]
     corner = np.array([s.corner for s in srcs])[None, :]
-    internal = np.array([not s.is_signal for s in srcs], bool)
     sig_idx = [k for k, s in enumerate(srcs) if s.is_signal]
     t_sig = srcs[sig_idx[0]].temp if sig_idx else None
 
