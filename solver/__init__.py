@@ -8,14 +8,20 @@ The layers, in data-flow order: :mod:`solver.language.parse` (grammar -> stateme
 :mod:`solver.cli`. :func:`load`, :func:`loads` and :func:`solve` are the API.
 """
 __version__ = "0.1.0"
-__all__ = ["load", "loads", "solve", "Result", "InputError", "noise", "NoiseResult"]
+__all__ = ["load", "loads", "solve", "Result", "InputError"]
+__all__ += ["loop"]  # feedback: return ratio, asymptotic gain, Blackman, margins
+__all__ += ["sensitivity", "spread", "tune"]  # tolerances, Monte Carlo, part values
+__all__ += ["noise", "NoiseResult"]  # noise: densities, en/in, noise figure, contributions
 
 
 def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
-    if name in ("load", "loads", "solve", "Result", "noise", "NoiseResult"):
+    if name in ("load", "loads", "solve", "Result", "sensitivity", "spread", "tune", "noise", "NoiseResult"):
         from solver import api
         return getattr(api, name)
     if name == "InputError":
         from solver.diagnostics import InputError
         return InputError
+    if name == "loop":
+        from solver import api
+        return api.loop
     raise AttributeError(name)

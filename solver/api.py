@@ -94,6 +94,141 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
     return Result(p.circuit, f, pr.quantities, device_table(p.circuit), p.notes + why, p.bias, warnings)
 
 
+# --- tolerances, Monte Carlo and part values (issue 14) ------------------------------------------
+def _circuit(circuit) -> Circuit:
+    return circuit if isinstance(circuit, Circuit) else load(circuit)
+
+
+class _JSON:
+    """.to_dict() and .to_json() of an analysis result, by the output layer's JSON rule."""
+
+    _json = None
+
+    def to_dict(self) -> dict:
+        return self._json(self)
+
+    def to_json(self) -> str:
+        import json
+        return json.dumps(self.to_dict(), indent=2, allow_nan=False)
+
+
+def _as(cls, result):
+    from dataclasses import fields
+    return cls(**{f.name: getattr(result, f.name) for f in fields(result)})
+
+
+def _result_classes():
+    from solver.analysis.sensitivity import SensitivityResult as _Sens
+    from solver.analysis.spread import SpreadResult as _Spread
+    from solver.analysis.tune import TuneResult as _Tune
+    from solver.output import variation as out
+    return {
+        "sensitivity": type("SensitivityResult", (_JSON, _Sens), {"_json": staticmethod(out.sensitivity_json)}),
+        "spread": type("SpreadResult", (_JSON, _Spread), {"_json": staticmethod(out.spread_json)}),
+        "tune": type("TuneResult", (_JSON, _Tune), {"_json": staticmethod(out.tune_json)}),
+    }
+
+
+_CLASSES: dict = {}
+
+
+def _wrap(kind, result):
+    if not _CLASSES:
+        _CLASSES.update(_result_classes())
+    return _as(_CLASSES[kind], result)
+
+
+def sensitivity(circuit: Circuit | str | Path, quantities=None, at: float | None = None, force: bool = False):
+    """Normalised sensitivities (x/Q)·dQ/dx of port quantities, ranked (see solver.analysis.sensitivity).
+
+    Returns a :class:`solver.analysis.sensitivity.SensitivityResult` (``.to_dict()``,
+    ``.to_json()``, ``.warnings``).
+    """
+    from solver.analysis.sensitivity import sensitivity as run
+    with paused_gc():
+        return _wrap("sensitivity", run(_circuit(circuit), quantities, at, force))
+
+
+def spread(circuit: Circuit | str | Path, samples: int = 1000, seed: int | None = None, at: float | None = None,
+           worst: bool = False, force: bool = False):
+    """Monte Carlo over the netlist's ``spread`` lines (see solver.analysis.spread).
+
+    Returns a :class:`solver.analysis.spread.SpreadResult` (``.to_dict()``, ``.to_json()``,
+    ``.warnings``).
+    """
+    from solver.analysis.spread import spread as run
+    with paused_gc():
+        return _wrap("spread", run(_circuit(circuit), samples, seed, at, worst, force))
+
+
+def tune(circuit: Circuit | str | Path, quantity: str, target: float, vary: str, series: str | None = None,
+         at: float | None = None, force: bool = False):
+    """The value of ``vary`` that makes ``quantity`` reach ``target`` (see solver.analysis.tune).
+
+    Returns a :class:`solver.analysis.tune.TuneResult`; raises
+    :class:`solver.analysis.tune.NoSolution` when no value in range reaches the target.
+    """
+    from solver.analysis.tune import tune as run
+    with paused_gc():
+        return _wrap("tune", run(_circuit(circuit), quantity, target, vary, series, at, force))
+
+
+# --- feedback: portwise loop (issue 15) ------------------------------------------------------------
+def loop(circuit: Circuit | str | Path, around: str | None = None, at: float | None = None,
+         f_from: float | None = None, f_to: float | None = None, points: int | None = None,
+         break_node: str | None = None, toward: list[str] | None = None, force: bool = False):
+    """The feedback loop around a controlled source (``around``) or at a node (``break_node``).
+
+    One frequency (``at``, default as :func:`solve`), or a log sweep ``f_from`` .. ``f_to``
+    (``points``, default 20 per decade) with the crossover, phase and gain margins.
+    Returns a :class:`solver.output.loopreport.LoopResult` (``.to_dict()``, ``.to_json()``,
+    ``.text()``, ``.warnings``). See :mod:`solver.analysis.loop`.
+
+    Examples
+    --------
+    >>> import solver
+    >>> c = solver.loads('''
+    ... signal VS (p, gnd) 1 V
+    ... opamp U1 (out, p, fb) gain=1000
+    ... resistor R1 (fb, gnd) 1k
+    ... resistor R2 (out, fb) 9k
+    ... output (out, gnd)
+    ... ''')
+    >>> r = solver.loop(c, around="U1")
+    >>> round(r.to_dict()["T"]["re"], 6), round(r.to_dict()["G_inf"]["re"], 6)
+    (100.0, 10.0)
+    """
+    import numpy as np
+
+    from solver.analysis import loop as L
+    from solver.analysis.frequency import frequencies
+    from solver.diagnostics import error
+    from solver.output.loopreport import LoopResult, warnings_for
+    if (around is None) == (break_node is None):
+        raise error(None, "give one of --around NAME or --break NODE")
+    c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    sweep = f_from is not None or f_to is not None
+    with paused_gc():
+        p = pipeline.prepare(c, "ports", "dc" if not sweep and at is not None and float(at) == 0 else "ac", force)
+        notes = list(p.notes)
+        if sweep:
+            if f_from is None or f_to is None or not (0 < f_from < f_to):
+                raise error(None, "a sweep needs 0 < --from < --to")
+            freqs = frequencies(f_from, f_to, points)
+        else:
+            f, why = analysis_frequency(p.circuit, at)
+            notes += why
+            freqs = np.array([f])
+        try:
+            if around is not None:
+                a = L.analyse_loop(p.circuit, around, freqs, sweep)
+            else:
+                a = L.analyse_break(p.circuit, break_node, toward, freqs, sweep)
+        except L.LoopError as e:
+            raise p.fail([Diagnostic("error", None, str(e))]) from None
+    return LoopResult(p.circuit, a, sweep, notes, p.warnings + warnings_for(a))
+
+
 # --- noise (portwise noise) -----------------------------------------------------------------------
 #: the band of a noise analysis when none is given (an instrument front end's audio-to-ultrasound
 #: range; common practice, no source) and its default density of points

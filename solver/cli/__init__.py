@@ -13,7 +13,8 @@ import sys
 
 from solver.diagnostics import InputError
 
-COMMANDS = ("solve", "derive", "check", "bias", "sweep", "twoport", "noise")
+COMMANDS = ("solve", "derive", "check", "bias", "sweep", "twoport",
+            "loop", "sensitivity", "spread", "tune", "noise")
 
 EPILOG = """\
 examples:

@@ -23,6 +23,8 @@ Small-signal results are linear estimates, not a safety assessment."""
 from solver.circuit.model import PORT_QUANTITIES
 
 QUANTITY_CHOICES = PORT_QUANTITIES + ("all",)
+LOOP_CHOICES = ("T", "Ginf", "G0")  # feedback around --around NAME (solver.analysis.symbolic.loop)
+QUANTITY_CHOICES += LOOP_CHOICES
 
 
 def _names(values) -> list[str]:
@@ -48,6 +50,8 @@ def add_arguments(p) -> None:
                    help="write bias-form devices' gm, rpi, ro in terms of ic, beta, va and V_T")
     p.add_argument("--latex", action="store_true", help="print LaTeX (\\parallel for ||)")
     p.add_argument("--json", action="store_true", help="print JSON")
+    p.add_argument("--around", metavar="NAME",
+                   help="for T, Ginf, G0: the loop's controlled source (Q1, U1, G1), as portwise loop")
 
 
 def tolerance(text: str) -> float:
@@ -73,7 +77,13 @@ def run(args) -> int:
     p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac")  # the same input checks as solve
     c = p.circuit
     print_warnings(p.warnings)
-    if args.quantity == "all":
+    if args.quantity in LOOP_CHOICES:
+        if not args.around:
+            raise error(None, f"{args.quantity} needs --around NAME (the controlled source of the loop)")
+        qs = [args.quantity]
+    elif args.around:
+        raise error(None, f"--around goes with {', '.join(LOOP_CHOICES)}, not {args.quantity}")
+    elif args.quantity == "all":
         qs = scenarios.quantities(c)
     else:
         why = scenarios.why_undefined(c, args.quantity)
@@ -86,7 +96,7 @@ def run(args) -> int:
     numeric = _names(args.numeric)
     tol = tolerance(args.dominant) if args.dominant is not None else None
     f, _ = analysis_frequency(c, at)
-    results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias)
+    results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias, around=args.around)
     if args.json:
         items = []
         for d in results:
