@@ -92,6 +92,12 @@ def csv_text(nz: nm.Noise) -> str:
     return "\n".join(lines) + "\n"
 
 
+def _signed(x: float) -> str:
+    """+0.183, -0.006; a value that rounds to zero is +0.000 (no "-0.000")."""
+    text = f"{x:+.3f}"
+    return "+0.000" if text == "-0.000" else text
+
+
 def _db(x: float) -> str:
     return "∞ dB" if math.isinf(x) else "nan" if math.isnan(x) else f"{x:.2f} dB"
 
@@ -120,7 +126,7 @@ def text_report(c: Circuit, nz: nm.Noise, notes: list[str] | None = None) -> str
                                f"|{gname}| = {eng(abs(nz.gain[k]), 'Ω' if nz.current_signal else 'V/V')})"),
             ("en (input shorted)", eng(math.sqrt(nz.en2[k]), "V/√Hz")),
             ("in (input open)", eng(math.sqrt(nz.in2[k]), "A/√Hz")),
-            ("correlation of en, in", f"{rho.real:+.3f} {rho.imag:+.3f}j"),
+            ("correlation of en, in", f"{_signed(rho.real)} {_signed(rho.imag)}j"),
             ("noise figure", f"{_db(float(nz.nf_db[k]))} for rs = {rs_text} at {nm.T0:g} K"),
             ("optimum source", f"Rs_opt = {eng(float(nz.rs_opt[k]), 'Ω')}   NF_min = {_db(float(nz.nf_min_db[k]))}")]
     w = max(len(a) for a, _ in rows)
