@@ -15,10 +15,11 @@ _API = ("load", "loads", "solve", "Result", "bias", "derive", "check", "sweep", 
         "BiasReport", "Derivation", "CheckResult", "Sweep", "TwoPortResult")
 __all__ += ["loop"]  # feedback: return ratio, asymptotic gain, Blackman, margins
 __all__ += ["sensitivity", "spread", "tune"]  # tolerances, Monte Carlo, part values
+__all__ += ["noise", "NoiseResult"]  # noise: densities, en/in, noise figure, contributions
 
 
 def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
-    if name in _API or name in ("sensitivity", "spread", "tune"):
+    if name in _API or name in ("sensitivity", "spread", "tune", "noise", "NoiseResult"):
         from solver import api
         return getattr(api, name)
     if name == "InputError":

@@ -531,3 +531,121 @@ def loop(circuit: Circuit | str | Path, around: str | None = None, at: float | N
         except L.LoopError as e:
             raise p.fail([Diagnostic("error", None, str(e))]) from None
     return LoopResult(p.circuit, a, sweep, notes, p.warnings + warnings_for(a))
+
+
+# --- noise (portwise noise) -----------------------------------------------------------------------
+#: the band of a noise analysis when none is given (an instrument front end's audio-to-ultrasound
+#: range; common practice, no source) and its default density of points
+NOISE_BAND_HZ = (10.0, 100e3)
+NOISE_PER_DECADE = 20
+
+
+@dataclass
+class NoiseResult:
+    """What ``portwise noise`` reports: the arrays of :class:`solver.analysis.noise.Noise` and more.
+
+    ``noise`` holds the arrays (power spectral densities); :meth:`to_dict` gives the JSON object
+    of the command (densities in V/√Hz, A/√Hz) and :meth:`to_json` the same as a string.
+    """
+
+    circuit: Circuit
+    noise: object
+    notes: list[str] = field(default_factory=list)
+    bias: object = None
+    warnings: list[Diagnostic] = field(default_factory=list)
+
+    @property
+    def frequency_hz(self):
+        return self.noise.freqs
+
+    @property
+    def totals(self) -> dict:
+        return dict(self.noise.totals)
+
+    @property
+    def contributions(self) -> list[dict]:
+        from solver.analysis.noise import contributions
+        return contributions(self.noise)
+
+    def to_dict(self) -> dict:
+        from solver.output.noise import noise_json
+        return noise_json(self.circuit, self.noise, self.notes)
+
+    def to_json(self) -> str:
+        import json
+        return json.dumps(self.to_dict(), indent=2, allow_nan=False)
+
+    def text(self) -> str:
+        from solver.output.noise import text_report
+        return text_report(self.circuit, self.noise, self.notes)
+
+
+def noise(circuit: Circuit | str | Path, f_from: float | None = None, f_to: float | None = None,
+          points: int | None = None, at: float | None = None, force: bool = False,
+          frequencies=None) -> NoiseResult:
+    """Small-signal noise of a circuit: densities, en and in, noise figure, band totals, contributions.
+
+    Parameters
+    ----------
+    circuit : Circuit, or a netlist file name
+    f_from, f_to : float, optional
+        The band in Hz (log-spaced, ``points`` in all, default 20 per decade); default
+        :data:`NOISE_BAND_HZ`.
+    at : float, optional
+        One frequency instead of a band (every array has one value; no band totals).
+    force : bool
+        Analyse transistors outside their amplifying region (the notes warn).
+    frequencies : array of float, optional
+        Explicit frequencies (Hz, positive, increasing) instead of f_from/f_to/points.
+
+    Returns
+    -------
+    NoiseResult
+
+    Raises
+    ------
+    InputError
+        Bad input, or a circuit that cannot be solved.
+
+    Examples
+    --------
+    >>> import solver
+    >>> c = solver.loads("signal VS (a, gnd) 1 V, rs=1k\\nresistor R1 (a, gnd) 1k\\nload RL (a, gnd) 1k, noise=off\\n")
+    >>> r = solver.noise(c, at=1e3)
+    >>> round(r.to_dict()["output_density"][0] * 1e9, 3)   # sqrt(4kT (2/1k)) (1k || 1k || 1k), nV/√Hz
+    1.919
+    >>> [(row["element"], round(row["share"], 3)) for row in r.contributions]
+    [('VS', 0.5), ('R1', 0.5)]
+    """
+    import numpy as np
+
+    from solver.analysis import noise as nm
+    from solver.analysis.frequency import frequencies as log_freqs
+    from solver.diagnostics import error
+    c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    notes: list[str] = []
+    if frequencies is not None:
+        freqs = np.asarray(frequencies, float)
+    elif at is not None:
+        if not at > 0:
+            raise error(None, "noise is computed above 0 Hz: give a positive frequency")
+        freqs = np.array([float(at)])
+    else:
+        if f_from is None and f_to is None:
+            f_from, f_to = NOISE_BAND_HZ
+            notes.append(f"no band given: {f_from:g} Hz to {f_to / 1e3:g} kHz (give --from and --to)")
+        elif f_from is None or f_to is None:
+            raise error(None, "give both ends of the band (--from and --to)")
+        if not 0 < f_from < f_to:
+            raise error(None, "the band needs 0 < from < to")
+        freqs = log_freqs(f_from, f_to, points, None if points else NOISE_PER_DECADE)
+    if freqs.size == 0 or not np.all(freqs > 0) or np.any(np.diff(freqs) <= 0):
+        raise error(None, "noise frequencies are positive and increasing")
+    with paused_gc():
+        p = pipeline.prepare(c, "ports", "ac", force)
+        nz = nm.analyse(p.circuit, freqs)
+        bad = ~np.isfinite(nz.gain)
+        if bad.any():
+            f_bad = float(freqs[np.argmax(bad)])
+            raise p.fail(explain_singular(p.circuit, f_bad, f"the system is singular at {f_bad:g} Hz"))
+    return NoiseResult(p.circuit, nz, p.notes + notes, p.bias, list(p.warnings))

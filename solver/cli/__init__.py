@@ -15,7 +15,7 @@ from solver.diagnostics import InputError
 from solver.output.cautions import CAUTION
 
 COMMANDS = ("solve", "derive", "check", "bias", "sweep", "twoport",
-            "loop", "sensitivity", "spread", "tune")
+            "loop", "sensitivity", "spread", "tune", "noise")
 
 EPILOG = """\
 examples:

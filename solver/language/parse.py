@@ -56,7 +56,7 @@ _quantity = functools.lru_cache(maxsize=4096)(parse_quantity)  # netlists repeat
 # Terminal patterns, restated from grammar/portwise.lark (tests/test_parse_fastpath.py compares
 # them with the compiled grammar's ``Lark.terminals``).
 QUANTITY = (r"(?:\d+[RKkMGTpnuµμm]\d+|(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)"
-            r"(?:[ \t]*(?:[fpnuµμmkMGT]?(?:Ω|ohm|Hz|A\/V\^2|A\/V|\/V|V|A|F|H|S|K|W)|[fpnuµμmkMGT]|%))?"
+            r"(?:[ \t]*(?:[fpnuµμmkMGT]?(?:V\/√Hz|A\/√Hz|V\/rtHz|A\/rtHz|Ω|ohm|Hz|A\/V\^2|A\/V|\/V|V|A|F|H|S|K|W)|[fpnuµμmkMGT]|%))?"
             r"(?![A-Za-z0-9_µμΩ])")
 NAME = r"[A-Za-z_][A-Za-z0-9_]*"
 STRING = r'"(?:[^"\\\n]|\\.)*"'
