@@ -41,8 +41,18 @@ class Result:
     bias: object = None
     #: every warning found on the way (elaboration, DC view, bias, topology, conditioning)
     warnings: list[Diagnostic] = field(default_factory=list)
+    #: with ``midband=True``: the capacitors' classification (solver.analysis.midband.Midband)
+    midband: object = None
+    #: the exact ratio written whatever its size; LaTeX in the dictionary
+    expanded: bool = False
+    latex: bool = False
 
-    def to_json(self) -> dict:
+    def to_json(self) -> str:
+        """:meth:`to_dict` as a JSON string (infinite values as ``"inf"``)."""
+        return _dumps(self.to_dict())
+
+    def to_dict(self) -> dict:
+        """The ``portwise solve --json`` object."""
         out = {
             "circuit": self.circuit.title or Path(self.circuit.file).stem,
             "frequency_hz": self.frequency_hz,
@@ -52,10 +62,31 @@ class Result:
         }
         if self.notes:  # e.g. "evaluated at the detected midband frequency"
             out["notes"] = list(self.notes)
+        if self.midband is not None:
+            out["midband"] = self.midband.to_dict()
         return out
 
 
 from solver.output.jsonout import number as _num# noqa: E402  (one JSON rule for every command)
+
+
+def _dumps(obj) -> str:
+    import json
+    return json.dumps(obj, indent=2, allow_nan=False)
+
+
+def _circuit(circuit) -> Circuit:
+    return circuit if isinstance(circuit, Circuit) else load(circuit)
+
+
+class _Dictable:
+    """``to_json()`` is ``to_dict()`` as a JSON string, the same object the command's ``--json`` prints."""
+
+    def to_json(self) -> str:
+        return _dumps(self.to_dict())
+
+    def to_dict(self) -> dict:  # pragma: no cover - every result defines it
+        raise NotImplementedError
 
 
 DEVICE_COLUMNS = {"bjt": ("gm", "rpi", "ro", "re", "beta"), "mos": ("gm", "ro", "gmb")}
@@ -74,15 +105,20 @@ def device_table(c: Circuit) -> dict[str, dict[str, float]]:
     return out
 
 
-def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = False) -> Result:
+def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = False,
+          midband: bool = False) -> Result:
     """Port quantities of a circuit at ``at`` hertz (default: the detected midband if reactive, else DC).
 
     A device given by its DC parameters (no ic/gm, id/gm) is first biased
     (:func:`solver.analysis.pipeline.prepare`); a transistor outside its amplifying
     region is an InputError unless ``force`` (then the result's notes warn).
-    Raises InputError for a circuit that cannot be solved (e.g. singular).
+    ``midband``: the midband circuit instead (:func:`midband_circuit`: coupling and bypass
+    capacitors shorted, device and wiring capacitances opened; ``result.midband`` lists
+    the classification). Raises InputError for a circuit that cannot be solved (e.g. singular).
     """
     c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    if midband:
+        return _solve_midband(c, force)
     with paused_gc():
         p = pipeline.prepare(c, "ports", "dc" if at is not None and float(at) == 0 else "ac", force)
         f, why = analysis_frequency(p.circuit, at)
@@ -92,6 +128,274 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
             raise p.fail(explain_singular(p.circuit, f, str(e))) from None
         warnings = p.warnings + conditioning(p.circuit, f)
     return Result(p.circuit, f, pr.quantities, device_table(p.circuit), p.notes + why, p.bias, warnings)
+
+
+def midband_circuit(circuit: Circuit | str | Path, force: bool = False):
+    """``(midband circuit, classification)`` of a circuit, biased first when it needs it.
+
+    See :func:`solver.analysis.midband.midband_circuit`; the classification's ``.lines()``
+    and ``.to_dict()`` list what was shorted and what opened.
+    """
+    from solver.analysis.midband import check_midband, midband_circuit as _midband
+    p = pipeline.prepare(_circuit(circuit), "ports", "ac", force)
+    m, classes = _midband(p.circuit)
+    errors = check_midband(m)
+    if errors:
+        raise p.fail(errors)
+    return m, classes, p
+
+
+def _solve_midband(c: Circuit, force: bool) -> Result:
+    with paused_gc():
+        m, classes, p = midband_circuit(c, force)
+        try:
+            pr = port_quantities(m, 0.0)
+        except PortError as e:
+            raise p.fail(explain_singular(m, 0.0, str(e))) from None
+        warnings = p.warnings + conditioning(m, 0.0)
+    r = Result(m, 0.0, pr.quantities, device_table(m), p.notes + [classes.note()], p.bias, warnings)
+    r.midband = classes
+    return r
+
+
+# --- the other commands as functions ------------------------------------------------------------
+@dataclass
+class BiasReport(_Dictable):
+    """What ``portwise bias`` reports: the DC operating point of a circuit."""
+
+    circuit: Circuit
+    #: solver.analysis.bias.BiasResult: node voltages, device currents and regions, supply currents
+    bias: object
+    notes: list[str] = field(default_factory=list)
+    warnings: list[Diagnostic] = field(default_factory=list)
+
+    @property
+    def nodes(self) -> dict[str, float]:
+        return self.bias.nodes
+
+    @property
+    def devices(self) -> dict[str, dict]:
+        return self.bias.devices
+
+    def to_dict(self) -> dict:
+        from solver.output.biasreport import bias_json
+        out = bias_json(self.bias, self.circuit)
+        if self.notes:
+            out["notes"] = list(self.notes)
+        return out
+
+
+def bias(circuit: Circuit | str | Path) -> BiasReport:
+    """The DC operating point (``portwise bias``); a device outside its region is a warning, not an error.
+
+    Examples
+    --------
+    >>> import solver
+    >>> b = solver.bias(solver.loads("supply VCC (vcc, gnd) 9 V\\nresistor R1 (vcc, b) 10k\\n"
+    ...                              "resistor R2 (b, gnd) 10k\\n"))
+    >>> round(b.nodes["b"], 6), round(b.to_dict()["supplies"]["VCC"], 9)  # 9 V / 20 kΩ
+    (4.5, 0.00045)
+    """
+    c = _circuit(circuit)
+    with paused_gc():
+        p = pipeline.prepare(c, "bias")
+    return BiasReport(p.circuit, p.bias, list(p.bias.notes), p.warnings)
+
+
+@dataclass
+class Derivation(_Dictable):
+    """What ``portwise derive`` reports: each quantity's exact expression."""
+
+    circuit: Circuit
+    frequency_hz: float
+    #: solver.analysis.symbolic.derive results, one per quantity (.quantity, .plain, .latex, .sympy, .symbols)
+    results: list
+    tolerance: float | None = None
+    warnings: list[Diagnostic] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+    #: with ``midband=True``: the capacitors' classification (solver.analysis.midband.Midband)
+    midband: object = None
+    #: the exact ratio written whatever its size; LaTeX in the dictionary
+    expanded: bool = False
+    latex: bool = False
+
+    @property
+    def expressions(self) -> dict[str, str]:
+        """quantity -> the expression as the netlist language writes it."""
+        return {d.quantity: d.plain for d in self.results}
+
+    def to_dict(self) -> dict:
+        from solver.output.derivation import derive_json
+        return derive_json(self.results, self.tolerance, self.frequency_hz, expanded=self.expanded,
+                           latex=self.latex, midband=self.midband, notes=self.notes)
+
+
+def derive(circuit: Circuit | str | Path, quantity: str | list[str] = "Av", keep=None, numeric=(), limits=(),
+           dominant: float | None = None, at: float | None = None, expand_bias: bool = False,
+           force: bool = False, midband: bool = False, expanded: bool = False, latex: bool = False,
+           around: str | None = None) -> Derivation:
+    """Exact symbolic port quantities (``portwise derive``).
+
+    ``quantity`` is a name, a list of names or ``"all"``; ``keep`` the symbols kept symbolic
+    (the others take their values), ``numeric`` the symbols replaced by their values,
+    ``limits`` ``"Q1.ro=oo"``-style texts applied in order, ``dominant`` a tolerance (0.05)
+    for the dominant-term pruning, ``midband`` the midband circuit (see :func:`midband_circuit`),
+    ``expanded`` the flat sum-of-products ratio instead of the design-oriented form, ``latex``
+    each form's LaTeX in the dictionary, ``around`` the controlled source of T, Ginf and G0.
+
+    Examples
+    --------
+    >>> import solver
+    >>> d = solver.derive(solver.loads("signal VS (in, gnd) 1 V\\nresistor R1 (in, out) 1k\\n"
+    ...                                "load RL (out, gnd) 1k\\n"), "Av")
+    >>> d.expressions["Av"]
+    'RL/(R1 + RL)'
+    """
+    from solver.analysis import scenarios
+    from solver.analysis.symbolic.claims import parse_limit
+    from solver.analysis.symbolic.derive import derive as _derive
+    from solver.analysis.symbolic.ports import circuit_symbols
+    c, classes = _circuit(circuit), None
+    if midband:
+        c, classes, p = midband_circuit(c, force)
+        notes = list(p.notes) + [classes.note()]
+        at = 0.0
+    else:
+        p = pipeline.prepare(c, "ports", "dc" if at is not None and float(at) == 0 else "ac", force)
+        c, notes = p.circuit, list(p.notes)
+    if quantity == "all":
+        qs = scenarios.quantities(c)
+    else:
+        qs = [quantity] if isinstance(quantity, str) else list(quantity)
+        from solver.analysis.symbolic.loop import LOOP_QUANTITIES
+        for q in qs:
+            why = None if q in LOOP_QUANTITIES else scenarios.why_undefined(c, q)
+            if why:
+                from solver.diagnostics import error
+                raise error(None, f"{q} is not defined here: {why}")
+    limits = [parse_limit(t, circuit_symbols(c)) for t in limits]
+    f, _ = analysis_frequency(c, at)
+    results = _derive(c, qs, list(keep) if keep else None, list(numeric or ()), limits, dominant, f, expand_bias,
+                      expanded, around=around)
+    return Derivation(c, f, results, dominant, p.warnings, notes, classes, expanded, latex)
+
+
+@dataclass
+class CheckResult(_Dictable):
+    """What ``portwise check`` reports: a verdict for every claim line."""
+
+    circuit: Circuit
+    frequency_hz: float
+    #: solver.analysis.symbolic.claims.Verdict, one per claim
+    verdicts: list
+    warnings: list[Diagnostic] = field(default_factory=list)
+
+    @property
+    def holds(self) -> bool:
+        return all(v.holds for v in self.verdicts)
+
+    def to_dict(self) -> dict:
+        from solver.output.claims import verdict_json
+        return {"frequency_hz": self.frequency_hz, "claims": [verdict_json(v) for v in self.verdicts]}
+
+
+def check(circuit: Circuit | str | Path, at: float | None = None, force: bool = False) -> CheckResult:
+    """The claim lines checked against the exact result (``portwise check``); ``.holds`` for all of them."""
+    from solver.analysis.symbolic.claims import check as check_circuit
+    res = check_circuit(_circuit(circuit), at, force)  # the same input checks as solve (pipeline.prepare)
+    return CheckResult(res.circuit, res.frequency_hz, res.verdicts, res.warnings)
+
+
+@dataclass
+class Sweep(_Dictable):
+    """What ``portwise sweep`` reports: a frequency response and its summary."""
+
+    circuit: Circuit
+    #: solver.analysis.response.Summary: .freqs, .h, .band, .poles, .zeros, .estimates
+    summary: object
+    warnings: list[Diagnostic] = field(default_factory=list)
+
+    @property
+    def frequencies(self):
+        return self.summary.freqs
+
+    @property
+    def response(self):
+        return self.summary.h
+
+    def to_dict(self) -> dict:
+        from solver.output.sweep import summary_json
+        return summary_json(self.summary)
+
+
+def sweep(circuit: Circuit | str | Path, start: float, stop: float, points: int | None = None,
+          per_decade: int | None = None, quantity: str | None = None, force: bool = False) -> Sweep:
+    """The frequency response of one port quantity from ``start`` to ``stop`` hertz (``portwise sweep``).
+
+    Examples
+    --------
+    >>> import solver
+    >>> sw = solver.sweep(solver.loads("signal VS (in, gnd) 1 V\\nresistor R1 (in, out) 1k\\n"
+    ...                                "capacitor C1 (out, gnd) 159.155n\\noutput (out, gnd)\\n"), 10, 1e5)
+    >>> round(sw.summary.band.f_high_hz)  # 1/(2 pi R C), from memory
+    1000
+    """
+    from solver.analysis.frequency import ResponseError, default_quantity, frequencies
+    from solver.analysis.response import analyse
+    from solver.diagnostics import error
+    if not 0 < start < stop:
+        raise error(None, "a sweep needs 0 < start < stop")
+    c = _circuit(circuit)
+    with paused_gc():
+        p = pipeline.prepare(c, "ports", "ac", force)
+        c = p.circuit
+        q = quantity or default_quantity(c)
+        try:
+            sm = analyse(c, q, frequencies(start, stop, points, per_decade))
+        except ResponseError as e:
+            raise error(None, f"quantity {q}: {e}") from None
+    return Sweep(c, sm, p.warnings)
+
+
+@dataclass
+class TwoPortResult(_Dictable):
+    """What ``portwise twoport`` reports: z, y, h, g, ABCD and S at one frequency."""
+
+    circuit: Circuit
+    #: solver.analysis.twoport.TwoPort: .matrices (name -> 2x2 array or None), .reasons
+    twoport: object
+    warnings: list[Diagnostic] = field(default_factory=list)
+
+    @property
+    def matrices(self) -> dict:
+        return self.twoport.matrices
+
+    def to_dict(self) -> dict:
+        from solver.output.twoportjson import twoport_json
+        return twoport_json(self.twoport)
+
+
+def twoport(circuit: Circuit | str | Path, at: float, z0: float = 50.0, force: bool = False) -> TwoPortResult:
+    """The two-port parameters between the input and output ports at ``at`` hertz (``portwise twoport``).
+
+    Examples
+    --------
+    >>> import solver
+    >>> tp = solver.twoport(solver.loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 100\\n"
+    ...                                  "resistor R2 (b, gnd) 1k\\nload RL (b, gnd) 1k\\n"), at=0)
+    >>> [round(float(v.real), 6) for v in tp.matrices["z"].ravel()]  # a tee: z11 = R1 + R2, z12 = z21 = z22 = R2
+    [1100.0, 1000.0, 1000.0, 1000.0]
+    """
+    from solver.analysis.twoport import TwoPortError, two_port
+    from solver.diagnostics import error
+    c = _circuit(circuit)
+    p = pipeline.prepare(c, "twoport", "dc" if float(at) == 0 else "ac", force)
+    c = p.circuit
+    try:
+        tp = two_port(c, float(at), z0)
+    except TwoPortError as e:
+        raise error(c.output_loc or (c.load.loc if c.load else None), str(e)) from None
+    return TwoPortResult(c, tp, p.warnings)
 
 
 # --- tolerances, Monte Carlo and part values (issue 14) ------------------------------------------
@@ -229,6 +533,124 @@ def loop(circuit: Circuit | str | Path, around: str | None = None, at: float | N
     return LoopResult(p.circuit, a, sweep, notes, p.warnings + warnings_for(a))
 
 
+# --- noise (portwise noise) -----------------------------------------------------------------------
+#: the band of a noise analysis when none is given (an instrument front end's audio-to-ultrasound
+#: range; common practice, no source) and its default density of points
+NOISE_BAND_HZ = (10.0, 100e3)
+NOISE_PER_DECADE = 20
+
+
+@dataclass
+class NoiseResult:
+    """What ``portwise noise`` reports: the arrays of :class:`solver.analysis.noise.Noise` and more.
+
+    ``noise`` holds the arrays (power spectral densities); :meth:`to_dict` gives the JSON object
+    of the command (densities in V/√Hz, A/√Hz) and :meth:`to_json` the same as a string.
+    """
+
+    circuit: Circuit
+    noise: object
+    notes: list[str] = field(default_factory=list)
+    bias: object = None
+    warnings: list[Diagnostic] = field(default_factory=list)
+
+    @property
+    def frequency_hz(self):
+        return self.noise.freqs
+
+    @property
+    def totals(self) -> dict:
+        return dict(self.noise.totals)
+
+    @property
+    def contributions(self) -> list[dict]:
+        from solver.analysis.noise import contributions
+        return contributions(self.noise)
+
+    def to_dict(self) -> dict:
+        from solver.output.noise import noise_json
+        return noise_json(self.circuit, self.noise, self.notes)
+
+    def to_json(self) -> str:
+        import json
+        return json.dumps(self.to_dict(), indent=2, allow_nan=False)
+
+    def text(self) -> str:
+        from solver.output.noise import text_report
+        return text_report(self.circuit, self.noise, self.notes)
+
+
+def noise(circuit: Circuit | str | Path, f_from: float | None = None, f_to: float | None = None,
+          points: int | None = None, at: float | None = None, force: bool = False,
+          frequencies=None) -> NoiseResult:
+    """Small-signal noise of a circuit: densities, en and in, noise figure, band totals, contributions.
+
+    Parameters
+    ----------
+    circuit : Circuit, or a netlist file name
+    f_from, f_to : float, optional
+        The band in Hz (log-spaced, ``points`` in all, default 20 per decade); default
+        :data:`NOISE_BAND_HZ`.
+    at : float, optional
+        One frequency instead of a band (every array has one value; no band totals).
+    force : bool
+        Analyse transistors outside their amplifying region (the notes warn).
+    frequencies : array of float, optional
+        Explicit frequencies (Hz, positive, increasing) instead of f_from/f_to/points.
+
+    Returns
+    -------
+    NoiseResult
+
+    Raises
+    ------
+    InputError
+        Bad input, or a circuit that cannot be solved.
+
+    Examples
+    --------
+    >>> import solver
+    >>> c = solver.loads("signal VS (a, gnd) 1 V, rs=1k\\nresistor R1 (a, gnd) 1k\\nload RL (a, gnd) 1k, noise=off\\n")
+    >>> r = solver.noise(c, at=1e3)
+    >>> round(r.to_dict()["output_density"][0] * 1e9, 3)   # sqrt(4kT (2/1k)) (1k || 1k || 1k), nV/√Hz
+    1.919
+    >>> [(row["element"], round(row["share"], 3)) for row in r.contributions]
+    [('VS', 0.5), ('R1', 0.5)]
+    """
+    import numpy as np
+
+    from solver.analysis import noise as nm
+    from solver.analysis.frequency import frequencies as log_freqs
+    from solver.diagnostics import error
+    c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    notes: list[str] = []
+    if frequencies is not None:
+        freqs = np.asarray(frequencies, float)
+    elif at is not None:
+        if not at > 0:
+            raise error(None, "noise is computed above 0 Hz: give a positive frequency")
+        freqs = np.array([float(at)])
+    else:
+        if f_from is None and f_to is None:
+            f_from, f_to = NOISE_BAND_HZ
+            notes.append(f"no band given: {f_from:g} Hz to {f_to / 1e3:g} kHz (give --from and --to)")
+        elif f_from is None or f_to is None:
+            raise error(None, "give both ends of the band (--from and --to)")
+        if not 0 < f_from < f_to:
+            raise error(None, "the band needs 0 < from < to")
+        freqs = log_freqs(f_from, f_to, points, None if points else NOISE_PER_DECADE)
+    if freqs.size == 0 or not np.all(freqs > 0) or np.any(np.diff(freqs) <= 0):
+        raise error(None, "noise frequencies are positive and increasing")
+    with paused_gc():
+        p = pipeline.prepare(c, "ports", "ac", force)
+        nz = nm.analyse(p.circuit, freqs)
+        bad = ~np.isfinite(nz.gain)
+        if bad.any():
+            f_bad = float(freqs[np.argmax(bad)])
+            raise p.fail(explain_singular(p.circuit, f_bad, f"the system is singular at {f_bad:g} Hz"))
+    return NoiseResult(p.circuit, nz, p.notes + notes, p.bias, list(p.warnings))
+
+
 # --- the design report and the notebook displays (issue 16) ---------------------------------------
 def _result_html(self) -> str:
     """The port quantities (and the operating point) as the report shows them, for Jupyter."""
@@ -250,112 +672,34 @@ def _result_html(self) -> str:
 Result._repr_html_ = _result_html  # defined here, beside the report code it shares
 
 
-@dataclass
-class Sweep:
-    """A frequency response (:func:`sweep`): the summary of ``portwise sweep``, and its Bode plot in Jupyter."""
-
-    summary: object  # solver.analysis.response.Summary
-    warnings: list[Diagnostic] = field(default_factory=list)
-
-    def to_dict(self) -> dict:
-        from solver.output.sweep import summary_json
-        return summary_json(self.summary)
-
-    def to_json(self) -> str:
-        import json
-        from solver.output.htmlreport import json_ready
-        return json.dumps(json_ready(self.to_dict()), allow_nan=False)
-
-    def _repr_html_(self) -> str:
-        from solver.output import html as H
-        from solver.output.htmlreport import summary_html
-        return H.fragment(summary_html(self.summary))
+def _sweep_html(self) -> str:
+    """The Bode plot, band, poles and zeros and hand estimates as the report shows them, for Jupyter."""
+    from solver.output import html as H
+    from solver.output.htmlreport import summary_html
+    return H.fragment(summary_html(self.summary))
 
 
-def sweep(circuit: Circuit | str | Path, f_from: float = 1.0, f_to: float = 1e8, quantity: str | None = None,
-          points: int | None = None, per_decade: int | None = None) -> Sweep:
-    """The frequency response of ``portwise sweep``: midband, corners, poles and zeros, estimates.
-
-    Examples
-    --------
-    >>> import solver
-    >>> c = solver.loads("signal VS (a, gnd) 1 V, rs=1k\\ncapacitor C1 (a, gnd) 1u\\noutput (a, gnd)\\n")
-    >>> s = sweep(c, 1, 1e5)
-    >>> round(s.to_dict()["summary"]["f_high_hz"], 2)
-    159.15
-    >>> "<svg" in s._repr_html_()
-    True
-    """
-    from solver.analysis.frequency import default_quantity, frequencies
-    from solver.analysis.response import analyse
-    c = circuit if isinstance(circuit, Circuit) else load(circuit)
-    with paused_gc():
-        p = pipeline.prepare(c, "ports", "ac")
-        q = quantity or default_quantity(p.circuit)
-        sm = analyse(p.circuit, q, frequencies(f_from, f_to, points, per_decade))
-    return Sweep(sm, list(p.warnings))
+def _derivation_html(self) -> str:
+    """Each derived quantity as a MathML formula (from our own parse of the plain text), for Jupyter."""
+    from solver.output import html as H
+    from solver.output.htmlreport import formula_html
+    return H.fragment("".join(formula_html(d.quantity, d.plain, getattr(d, "where", None)) for d in self.results))
 
 
-@dataclass
-class Expression:
-    """One derived port quantity (:func:`derive`): plain text, LaTeX, and a formula in Jupyter.
-
-    ``_repr_html_`` is MathML built from our own parse of the plain text (the netlist
-    expression language), ``_repr_latex_`` the LaTeX of ``portwise derive --latex``.
-    """
-
-    derived: object  # solver.analysis.symbolic.derive.Derived
-
-    @property
-    def quantity(self) -> str:
-        return self.derived.quantity
-
-    @property
-    def plain(self) -> str:
-        return self.derived.plain
-
-    @property
-    def latex(self) -> str:
-        return self.derived.latex
-
-    def __str__(self) -> str:
-        return f"{self.quantity} = {self.plain}"
-
-    def to_dict(self) -> dict:
-        return {"quantity": self.quantity, "expression": self.plain, "latex": self.latex}
-
-    def to_json(self) -> str:
-        import json
-        return json.dumps(self.to_dict())
-
-    def _repr_latex_(self) -> str:
-        from solver.analysis.symbolic.printing import latex_name
-        return f"$\\displaystyle {latex_name(self.quantity)} = {self.latex}$"
-
-    def _repr_html_(self) -> str:
-        from solver.output import html as H
-        from solver.output.htmlreport import formula_html
-        return H.fragment(formula_html(self.quantity, self.plain, getattr(self.derived, "where", None)))
+def _derivation_latex(self) -> str:
+    """The LaTeX of ``portwise derive --latex``, one line per quantity, for Jupyter."""
+    from solver.analysis.symbolic.printing import latex_name
+    lines = [f"{latex_name(d.quantity)} = {d.latex}" for d in self.results]
+    if len(lines) == 1:
+        return f"$\\displaystyle {lines[0]}$"
+    return "$$\\begin{aligned}" + r" \\ ".join(line.replace(" = ", " &= ", 1) for line in lines) + \
+        "\\end{aligned}$$"
 
 
-def derive(circuit: Circuit | str | Path, quantities="all", keep=None, numeric=(), limits=()) -> list[Expression]:
-    """Symbolic port quantities as ``portwise derive`` prints them; each shows as a formula in Jupyter.
-
-    Examples
-    --------
-    >>> import solver
-    >>> d = derive(solver.loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nload RL (b, gnd) 2k\\n"), ["Gv"])
-    >>> str(d[0])
-    'Gv = RL/(R1 + RL)'
-    >>> "<math" in d[0]._repr_html_() and d[0]._repr_latex_().startswith("$")
-    True
-    """
-    from solver.analysis import scenarios
-    from solver.analysis.symbolic.derive import derive as _derive
-    c = circuit if isinstance(circuit, Circuit) else load(circuit)
-    p = pipeline.prepare(c, "ports", "ac")
-    qs = scenarios.quantities(p.circuit) if quantities == "all" else list(quantities)
-    return [Expression(d) for d in _derive(p.circuit, qs, keep, numeric, limits)]
+# defined here, beside the report code they share
+Sweep._repr_html_ = _sweep_html
+Derivation._repr_html_ = _derivation_html
+Derivation._repr_latex_ = _derivation_latex
 
 
 @dataclass

@@ -50,7 +50,7 @@ def test_at_option(cli, netlist):
 
 @pytest.mark.parametrize("text, fragment", [
     ("signal VS (a, gnd) 1 V\nresistor R1 (a, gnd 1k\noutput (a, gnd)\n", "unexpected"),
-    ("signal VS (a, gnd) 1 V\nwidget W1 (a, gnd) 1k\noutput (a, gnd)\n", "unexpected"),
+    ("signal VS (a, gnd) 1 V\nwidget W1 (a, gnd) 1k\noutput (a, gnd)\n", "unknown statement 'widget'"),
     ("signal VS (a, gnd) 1 V\nresistor R1 (a, gnd) 1k, tol=5\noutput (a, gnd)\n", "no parameter 'tol'"),
     ("signal VS (a, gnd) 1 V\nresistor R1 (a, b, gnd) 1k\noutput (a, gnd)\n", "takes 2 nodes"),
     ("signal VS (a, gnd) 1 V\ncapacitor C1 (a, gnd) 1 kohm\noutput (a, gnd)\n", "must be in F"),

@@ -489,9 +489,11 @@ def test_notebook_reprs(reactive):
     h = sw._repr_html_()
     assert "<svg" in h and "Hand estimates" in h and "<style>" in h
     assert json.loads(sw.to_json())["summary"]["f_low_hz"] == sw.to_dict()["summary"]["f_low_hz"]
-    d = api.derive(path, ["Gvo"])[0]
+    d = api.derive(path, ["Gvo"])
     assert d._repr_latex_().startswith("$\\displaystyle G_{vo} =")
     ET.fromstring(re.search(r"<math.*?</math>", d._repr_html_(), re.S).group(0))
+    both = api.derive(path, ["Gvo", "Rin"])
+    assert both._repr_latex_().startswith("$$\\begin{aligned}") and both._repr_html_().count("<math") == 2
     assert "<section" in rep._repr_html_()
 
 

@@ -639,11 +639,11 @@ def bias_circuit(c: Circuit, force: bool = False) -> tuple[Circuit, BiasResult]:
     if bad and not force:
         raise InputError([Diagnostic("error", d.loc, region_text(d, res.devices[d.name]) + "; the small-signal "
                                      f"model needs the {'active' if d.is_bjt else 'saturation'} region. Fix the "
-                                     "bias (see 'portwise bias FILE') or use --force to compute anyway")
+                                     "bias (see 'portwise bias FILE') or use --force to compute anyway (force=True from Python)")
                           for d in bad])
     for d in bad:
         res.notes.append(f"WARNING: {region_text(d, res.devices[d.name])}: outside its amplifying region, the "
-                         "small-signal results below do not describe this circuit (computed because of --force).")
+                         "small-signal results below do not describe this circuit (computed because forced).")
     return biased(c, res), res
 
 

@@ -22,7 +22,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from solver.analysis import scenarios
-from solver.analysis.bias import BiasError, BiasResult, bias_circuit, biased, cautions, needs_bias_solve, solve_bias
+from solver.analysis.bias import (BiasError, BiasResult, bias_circuit, biased, cautions, needs_bias_solve,
+                                  region_problems, region_text, solve_bias)
 from solver.bulk import paused_gc
 from solver.circuit import topology
 from solver.circuit.elaborate import elaborate
@@ -47,17 +48,35 @@ def read_source(path: str | Path) -> str:
         raise error(None, f"cannot read '{path}': {e.strerror or e}") from None
     if len(data) > limit:
         raise error(Loc(str(path), 1, 1), f"file larger than {limit} bytes")
+    utf16 = _utf16(data)
+    if utf16:
+        raise error(Loc(str(path), 1, 1), f"the file is {utf16}, not UTF-8: save the file as UTF-8")
     try:
         text = data.decode("utf-8")
     except UnicodeDecodeError as e:
         line = data[: e.start].count(b"\n") + 1
         col = e.start - (data.rfind(b"\n", 0, e.start) + 1) + 1
-        raise error(Loc(str(path), line, col), "invalid UTF-8 byte in the file") from None
+        byte = data[e.start]
+        seen = bytes([byte]).decode("cp1252", "replace")
+        guess = f" (in Latin-1 or Windows-1252 it would be '{seen}')" if byte >= 0xA0 and seen.isprintable() else ""
+        raise error(Loc(str(path), line, col), f"invalid UTF-8 byte 0x{byte:02X} in the file{guess}: "
+                    "save the file as UTF-8") from None
     if text.startswith("\ufeff"):
         text = text[1:]
     if not text.strip():
         raise error(Loc(str(path), 1, 1), "the file is empty")
     return text
+
+
+def _utf16(data: bytes) -> str:
+    """'UTF-16' (with its byte order) when the bytes look like it: a byte-order mark, or every
+    other byte zero in an ASCII-only text (common practice, no source)."""
+    if data[:2] in (b"\xff\xfe", b"\xfe\xff"):
+        return "UTF-16 (it starts with a UTF-16 byte-order mark)"
+    head = data[:200]
+    if len(head) >= 4 and head.count(0) * 2 >= len(head) - 1:
+        return "UTF-16 (every other byte is zero)"
+    return ""
 
 
 def loads(text: str, file: str = "<string>") -> Circuit:
@@ -115,6 +134,15 @@ def _unbiased(c: Circuit) -> list[Diagnostic]:
                                   f"{dev.name} has no operating point, so its small-signal model is unknown: "
                                   f"give {what} (or gm=), or solve the bias first"))
     return out
+
+
+def _region_warnings(c: Circuit, res: BiasResult, purpose: str) -> list[Diagnostic]:
+    """A bias-solved transistor outside its amplifying region, as a warning at its line: a finding
+    of the bias check; for a small-signal analysis only reached with ``force``."""
+    why = ("a small-signal analysis refuses it unless forced (--force; force=True from Python)" if purpose == "bias" else
+           "the small-signal results do not describe this circuit (analysed because forced)")
+    return [Diagnostic("warning", d.loc, f"{region_text(d, res.devices[d.name])}: outside its amplifying "
+                       f"region; {why}") for d in region_problems(c, res)]
 
 
 def prepare(c: Circuit, purpose: str = "ports", view: str = "ac", force: bool = False) -> Prepared:
@@ -176,6 +204,7 @@ def prepare(c: Circuit, purpose: str = "ports", view: str = "ac", force: bool = 
     if p.bias is not None:
         p.warnings += [w for w in p.bias.warnings if w not in p.warnings]
         p.notes = list(p.bias.notes)
+        p.warnings += _region_warnings(c, p.bias, purpose)
     if purpose == "bias":
         return p
     errors = _unbiased(p.circuit)
@@ -213,8 +242,8 @@ def analysis_frequency(c: Circuit, at: float | None = None) -> tuple[float, list
     from solver.analysis.frequency import midband_frequency
     fm = midband_frequency(c)
     if fm is None:
-        return f, [f"no --at given and no flat top found: evaluated at {_hz(f)}"]
-    return fm, [f"no --at given: evaluated at the detected midband frequency, {_hz(fm)} "
+        return f, [f"no analysis frequency given and no flat top found: evaluated at {_hz(f)}"]
+    return fm, [f"no analysis frequency given: evaluated at the detected midband frequency, {_hz(fm)} "
                 "(the flat top of the main gain)"]
 
 

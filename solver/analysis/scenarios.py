@@ -298,3 +298,30 @@ def signal_configurations(c: Circuit, base: list[Element] | None = None) -> list
     keys = dict.fromkeys(TABLE[q].loaded and c.load is not None for q in quantities(c)
                          if TABLE[q].drive == "signal")
     return [configuration(c, "signal", loaded, base) for loaded in sorted(keys, reverse=True)]
+
+
+# --- the noise analysis (solver.analysis.noise) ------------------------------------------------
+#: what the noise analysis reads in the main gain's configuration (signal-driven, load in place,
+#: the one Gv or Zt uses): the output voltage, and the input port's voltage and current, from
+#: which the equivalent input generators en, in follow (see solver.analysis.noise)
+NOISE_READOUTS = ("v_out", "v_in", "i_in")
+
+
+def noise_measurement(c: Circuit, base: list[Element] | None = None) -> tuple[Configuration, dict]:
+    """The configuration of the noise analysis and its read-outs ``{name: terms}``.
+
+    It is the configuration of the main gain (:func:`main_gain`: Gv, or Zt for a current
+    signal): the signal at unit amplitude with its rs, the load in place. Noise sources are
+    further excitations of this very system; with the signal's own excitation set to zero it
+    is the "zeroed" circuit whose output noise is measured.
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> c = loads("signal VS (a, gnd) 1 V, rs=1k\\nresistor R1 (a, gnd) 1k\\nload RL (a, gnd) 1k\\n")
+    >>> cfg, reads = noise_measurement(c)
+    >>> cfg.key, sorted(reads)
+    (('signal', True), ['i_in', 'v_in', 'v_out'])
+    """
+    m = measurement(c, main_gain(c), base=base)
+    return m.config, {name: _readout(c, name, m.config) for name in NOISE_READOUTS}

@@ -13,7 +13,7 @@ import math
 from solver.analysis.scenarios import signal_configurations
 from solver.circuit.elements import Nullor
 from solver.circuit.model import Circuit
-from solver.circuit.topology import describe_node as _show, list_names as _names
+from solver.circuit.topology import describe_node as _show, is_internal as _internal, list_names as _names
 from solver.diagnostics import Diagnostic, Loc
 from solver.engine.mna import COND_WARN, SingularSystem, assemble, condition_estimate, diagnose
 
@@ -27,8 +27,8 @@ def _drive_systems(c: Circuit):
 def _unknown(name: str, c: Circuit, kinds: dict | None = None) -> str:
     """``v(a)`` -> node 'a'; ``i(U1)`` -> the output current of op-amp U1; ``i(V1)`` -> the current of V1."""
     inner = name[2:-1]
-    if name.startswith("v("):
-        return f"node {_show(inner, c)}"
+    if name.startswith("v("):  # a node the expansion made is named by its element, never shown itself
+        return f"a voltage inside {_show(inner, c)}" if _internal(inner) else f"node {_show(inner, c)}"
     if (kinds or {}).get(inner) is Nullor:
         return f"the output current of op-amp {inner}"
     return f"the current of {inner}"
@@ -38,7 +38,7 @@ def _equation(name: str, c: Circuit, kinds: dict | None = None) -> str:
     """The row of an unknown: KCL at a node, or the branch law of a voltage-defined element."""
     inner = name[2:-1]
     if name.startswith("v("):
-        return f"KCL at {_show(inner, c)}"
+        return f"KCL inside {_show(inner, c)}" if _internal(inner) else f"KCL at {_show(inner, c)}"
     if (kinds or {}).get(inner) is Nullor:
         return f"the input condition of op-amp {inner} (v+ = v-)"
     return f"the voltage law of {inner}"

@@ -17,6 +17,7 @@ from solver.language import units as U
 from solver.circuit.devices import BJT_QUANTITIES, DIODE_QUANTITIES, MOS_QUANTITIES, DeviceError, small_signal
 from solver.diagnostics import Diagnostics, InputError, Loc, error
 from solver.circuit.elements import CCCS, CCVS, VCCS, VCVS, Capacitor, Inductor, Nullor, Resistor, VoltageSource
+from solver.circuit.plausible import implausible
 from solver.circuit.model import PORT_QUANTITIES, Circuit, ClaimSpec, Device, Load, Signal, Supply
 from solver.language.statements import (BlockStart, Claim, ElementStmt, End, Ground, Let, Netlist, Output, Param,
                                        Spread, Title, Use)
@@ -28,12 +29,20 @@ QUANTITIES = PORT_QUANTITIES
 
 _BJT_PARAMS = {"ic": U.AMP, "beta": U.ONE, "va": U.VOLT, "temp": U.KELVIN, "gm": U.SIEMENS,
                "rpi": U.OHM, "ro": U.OHM, "rx": U.OHM, "cpi": U.FARAD, "cmu": U.FARAD, "ft": U.HERTZ,
-               "model": None, "is": U.AMP, "beta_r": U.ONE, "pmax": U.WATT}
+               "model": None, "is": U.AMP, "beta_r": U.ONE, "pmax": U.WATT,
+               "fc": U.HERTZ, "noise": None}
 _MOS_PARAMS = {"id": U.AMP, "vov": U.VOLT, "lambda": U.PER_VOLT, "gm": U.SIEMENS, "ro": U.OHM,
                "gmb": U.SIEMENS, "cgs": U.FARAD, "cgd": U.FARAD, "k": U.A_PER_V2, "vth": U.VOLT,
-               "pmax": U.WATT}
+               "pmax": U.WATT, "temp": U.KELVIN, "gamma": U.ONE, "fc": U.HERTZ, "noise": None}
 _DIODE_PARAMS = {"is": U.AMP, "n": U.ONE, "id": U.AMP, "rd": U.OHM, "cj": U.FARAD, "temp": U.KELVIN,
-                 "pmax": U.WATT}
+                 "pmax": U.WATT, "noise": None}
+#: noise parameters (solver.analysis.noise): temp= the element's temperature, noise=off makes it
+#: noiseless; the devices' fc= gamma= en= in= fce= fci= are in their own tables
+_THERMAL_PARAMS = {"temp": U.KELVIN, "noise": None}
+_OPAMP_NOISE = {"en": U.V_PER_RTHZ, "in": U.A_PER_RTHZ, "fce": U.HERTZ, "fci": U.HERTZ, "noise": None}
+#: noise parameters that must be positive (temp, gamma) or not negative (densities, corners)
+_POSITIVE = ("temp", "gamma")
+_NOT_NEGATIVE = ("fc", "en", "in", "fce", "fci")
 
 
 class BiasPending(InputError):
@@ -51,7 +60,7 @@ class Spec:
 
 
 SPECS = {
-    "resistor": Spec((2,), (U.OHM,), {}),
+    "resistor": Spec((2,), (U.OHM,), _THERMAL_PARAMS),
     "capacitor": Spec((2,), (U.FARAD,), {}),
     "inductor": Spec((2,), (U.HENRY,), {}),
     "vccs": Spec((2, 2), (U.SIEMENS,), {}),
@@ -59,10 +68,10 @@ SPECS = {
     "cccs": Spec((2,), (U.ONE,), {}),
     "ccvs": Spec((2,), (U.OHM,), {}),
     "supply": Spec((2,), (U.VOLT, U.AMP), {}),
-    "signal": Spec((2,), (U.VOLT, U.AMP), {"rs": U.OHM}),
-    "load": Spec((2,), (U.OHM,), {}),
+    "signal": Spec((2,), (U.VOLT, U.AMP), {"rs": U.OHM, **_THERMAL_PARAMS}),
+    "load": Spec((2,), (U.OHM,), _THERMAL_PARAMS),
     # fp= (or gbw=) beside gain= makes a single-pole op-amp: A(s) = gain / (1 + s/(2 pi fp))
-    "opamp": Spec((3,), None, {"gain": U.ONE, "fp": U.HERTZ, "gbw": U.HERTZ}, "OUT INP INN"),
+    "opamp": Spec((3,), None, {"gain": U.ONE, "fp": U.HERTZ, "gbw": U.HERTZ, **_OPAMP_NOISE}, "OUT INP INN"),
     "npn": Spec((3,), None, _BJT_PARAMS, "C B E"),
     "pnp": Spec((3,), None, _BJT_PARAMS, "C B E"),
     "nmos": Spec(((3, 4),), None, _MOS_PARAMS, "D G S B"),
@@ -266,12 +275,17 @@ class Resolver:
             if p.key == "model":
                 model = _model_name(p)
                 continue
+            if p.key == "noise":
+                if not noise_flag(p):
+                    params["noise"] = 0.0
+                continue
             if p.key not in spec.params:
                 continue  # reported by _check_shape; a reference (Q1.re) may get here first
             v = ex.evaluate(p.value, self.lookup(entry.scope))
             want = spec.params[p.key]
             if v.dim is not None and want is not None and v.dim != want:
                 raise error(p.value.loc, f"{p.key}= expects {U.dim_name(want)}, got {U.dim_name(v.dim)}")
+            _check_noise_value(p, v.x)
             params[p.key] = v.x
         names = spec.terminals.split()
         nodes = {t: self.node(n, entry.scope) for t, n in zip(names, st.groups[0])}
@@ -319,6 +333,11 @@ def _check_current_sign(st: ElementStmt, params: dict) -> None:
                     f"(got {params[key]:g} A); a negative {key}= is for a p-type device")
 
 
+def _literal(e) -> str | None:
+    """The text of a value written as one number (``10m``, ``-3``), else None."""
+    return e.text if isinstance(e, ex.Num) else None
+
+
 def _model_name(p: Param) -> str:
     v = p.value
     if isinstance(v, ex.Ref) and v.parts in (("t",), ("T",)):
@@ -329,6 +348,21 @@ def _model_name(p: Param) -> str:
             and v.left.parts == ("hybrid",) and v.right.parts == ("pi",)):
         return "hybrid-pi"
     raise error(v.loc, "model= is hybrid-pi or t")
+
+
+def noise_flag(p: Param) -> bool:
+    """noise=on or noise=off (a word, never a name to look up): True when the element is noisy."""
+    v = p.value
+    if isinstance(v, ex.Ref) and v.parts in (("off",), ("on",)):
+        return v.parts == ("on",)
+    raise error(v.loc, "noise= is on or off")
+
+
+def _check_noise_value(p: Param, x: float) -> None:
+    if p.key in _POSITIVE and not (x > 0 and math.isfinite(x)):
+        raise error(p.value.loc, f"{p.key} must be positive" + (" (kelvin)" if p.key == "temp" else ""))
+    if p.key in _NOT_NEGATIVE and not (x >= 0 and math.isfinite(x)):
+        raise error(p.value.loc, f"{p.key} must not be negative")
 
 
 def _opamp_pole(s: ElementStmt, params: dict) -> float | None:
@@ -385,6 +419,7 @@ class _Elaborator:
         self.n_elements = 0
         self.scopes: list[tuple[str, Scope]] = []  # (block name, instance scope)
         self._pending: list = []  # (block body, instance scope), filled while declaring
+        self.warned_case: set[str] = set()  # 'GND' and the like, warned about once
         self._later: list = []  # spread and spec lines, read once every value is known
 
     # structure -----------------------------------------------------------------
@@ -427,7 +462,7 @@ class _Elaborator:
         self._finish(top)
         self._spreads()
         self.diags.check()
-        self.circuit.warnings = self.diags.warnings
+        self.circuit.warnings = list(dict.fromkeys(self.diags.warnings))  # a block used twice warns once
         self.circuit.resolver = self.res
         return self.circuit
 
@@ -594,6 +629,11 @@ class _Elaborator:
             raise error(s.value.loc, f"{s.keyword} value is not finite")
         return v
 
+    def _plausible(self, role: str, value: float, expr, loc: Loc) -> None:
+        msg = implausible(role, value, _literal(expr))
+        if msg:
+            self.diags.warning(loc, msg)
+
     def _element(self, s: ElementStmt, entry: Entry, scope: Scope, top: bool):
         """Build one element statement into the circuit: a device, the signal, a supply, the
         load, or a linear primitive."""
@@ -601,6 +641,20 @@ class _Elaborator:
             return
         kw = s.keyword
         nodes = [tuple(self.res.node(n, scope) for n in g) for g in s.groups]
+        for n in (n for g in s.groups for n in g):
+            if n.name.lower() in ("gnd", "ground") and n.name not in self.ground and n.name not in self.warned_case:
+                self.warned_case.add(n.name)
+                self.diags.warning(n.loc, f"node '{n.name}' is not the reference node 'gnd': node names are case "
+                                   f"sensitive (write gnd, or add 'ground {n.name}' to make it another name for "
+                                   "the reference)")
+        a_b = nodes[0]
+        if len(a_b) == 2 and (a_b[0] == a_b[1] or {*a_b} <= self.ground) and kw not in ("signal", "load"):
+            # joins nothing; the graph checks then blame this line, not its neighbours
+            on = "the reference node" if nodes[0][0] in self.ground else f"node '{nodes[0][0]}'"
+            self.diags.warning(s.groups[0][0].loc._replace(width=s.groups[0][-1].loc.col + s.groups[0][-1].loc.width
+                                                           - s.groups[0][0].loc.col),
+                               f"{entry.full} has both ends on {on}: it carries no current and does nothing "
+                               "(a typo for another node?)")
         if kw in ("npn", "pnp", "nmos", "pmos", "diode", "opamp"):
             self._device(s, entry, nodes)
         elif kw == "signal":
@@ -608,6 +662,7 @@ class _Elaborator:
         elif kw == "supply":
             v = self._value(s, entry)
             kind = "A" if v.dim == U.AMP else "V"
+            self._plausible(f"supply_{kind}", v.x, s.value, s.value.loc)
             short = VoltageSource(entry.full, nodes[0], 0.0, None, entry.full, s.loc) if kind == "V" else None
             self.circuit.supplies.append(Supply(entry.full, nodes[0], kind, v.x, s.loc, short))
         elif kw == "load":
@@ -618,6 +673,9 @@ class _Elaborator:
     def _device(self, s: ElementStmt, entry: Entry, nodes):
         c, full = self.circuit, entry.full
         dev = self.res.device(entry)
+        for p in s.params:
+            if p.key in ("ic", "id") and p.key in dev.params:
+                self._plausible(p.key, dev.params[p.key], p.value, p.value.loc)
         if s.keyword != "opamp":
             if s.keyword in ("nmos", "pmos") and len(nodes[0]) == 4 and nodes[0][3] == nodes[0][2]:
                 del dev.nodes["B"]  # the body tied to the source: no body effect
@@ -625,6 +683,11 @@ class _Elaborator:
             return
         gain = dev.params.get("gain")
         fp = _opamp_pole(s, dev.params)
+        spec = {k: dev.params[k] for k in ("en", "in", "fce", "fci") if k in dev.params}
+        if "noise" in dev.params:
+            spec["off"] = True
+        if spec:  # the op-amp's input noise generators, for solver.analysis.noise
+            c.noise[full] = spec
         if gain is None:
             c.elements.append(Nullor(full, nodes[0], 0.0, None, full, s.loc))
         elif fp is None:
@@ -642,14 +705,19 @@ class _Elaborator:
         v = self._value(s, entry)
         rs = self.res.value_of(entry, "rs", s.loc)
         kind = "A" if v.dim == U.AMP else "V"
+        rs_loc = next((p.value.loc for p in s.params if p.key == "rs"), s.loc)
         if rs.dim not in (None, U.OHM):
-            raise error(s.params[0].value.loc, f"rs= expects Ω, got {U.dim_name(rs.dim)}")
+            raise error(rs_loc, f"rs= expects Ω, got {U.dim_name(rs.dim)}")
         if rs.x < 0:
-            raise error(s.params[0].value.loc, "rs must not be negative")
+            raise error(rs_loc, "rs must not be negative")
         if kind == "A" and rs.x == 0:
-            raise error(s.params[0].value.loc, "a current signal with rs=0 is shorted")
+            raise error(rs_loc, "a current signal with rs=0 is shorted")
+        rs_param = next((p for p in s.params if p.key == "rs"), None)
+        if rs_param is not None:
+            self._plausible("rs", rs.x, rs_param.value, rs_param.value.loc)
         c.signal = Signal(full, nodes[0], kind, v.x, rs.x, s.loc)
         c.values[f"{full}.rs"] = rs.x
+        self._thermal(s, entry, f"{full}.rs")
 
     def _load(self, s: ElementStmt, entry: Entry, nodes, top: bool):
         c, full = self.circuit, entry.full
@@ -662,8 +730,10 @@ class _Elaborator:
             raise error(s.value.loc, "a load of 0 Ω shorts the output")
         if v.x < 0:
             self.diags.warning(s.value.loc, f"negative load value ({v.x:g})")
+        self._plausible("load", v.x, s.value, s.value.loc)
         c.load = Load(full, nodes[0], v.x, s.loc)
         c.values[full] = v.x
+        self._thermal(s, entry, full)
 
     def _linear(self, s: ElementStmt, entry: Entry, nodes, scope: Scope):
         kw, c, full = s.keyword, self.circuit, entry.full
@@ -675,6 +745,8 @@ class _Elaborator:
             raise error(s.value.loc, what)
         if kw in ("resistor", "capacitor", "inductor") and v.x < 0:
             self.diags.warning(s.value.loc, f"negative {kw} value ({v.x:g})")
+        if kw in ("resistor", "capacitor", "inductor"):
+            self._plausible(kw, v.x, s.value, s.value.loc)
         c.values[full] = v.x
         cls = {"resistor": Resistor, "capacitor": Capacitor, "inductor": Inductor, "vccs": VCCS,
                "vcvs": VCVS, "cccs": CCCS, "ccvs": CCVS}[kw]
@@ -685,6 +757,23 @@ class _Elaborator:
             kwargs["sense"] = s.sense  # resolved to an Element in _finish
         c.elements.append(cls(full, nodes[0], v.x, full, full, s.loc, **kwargs))
         self.element_entries.append((s, scope, c.elements[-1]))
+        if kw == "resistor":
+            self._thermal(s, entry, full)
+
+    def _thermal(self, s: ElementStmt, entry: Entry, name: str):
+        """temp= and noise= of a resistor, the load or the signal's rs, kept in ``circuit.noise``."""
+        spec = {}
+        for p in s.params:
+            if p.key == "noise":
+                spec["off"] = not noise_flag(p)
+            elif p.key == "temp":
+                v = ex.evaluate(p.value, self.res.lookup(entry.scope))
+                if v.dim not in (None, U.KELVIN):
+                    raise error(p.value.loc, f"temp= expects K, got {U.dim_name(v.dim)}")
+                _check_noise_value(p, v.x)
+                spec["temp"] = v.x
+        if spec:
+            self.circuit.noise[name] = spec
 
     def _claim(self, s: Claim, scope: Scope):
         if s.quantity not in QUANTITIES:

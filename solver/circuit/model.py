@@ -146,6 +146,10 @@ class Circuit:
     warnings: list[Diagnostic] = field(default_factory=list)
     #: name resolution for claims and derived expressions (see solver.circuit.elaborate.Resolver)
     resolver: object = None
+    #: noise parameters of resistors, the load and the signal's rs: full name -> {"temp": K,
+    #: "off": bool}, only for elements that give temp= or noise= (solver.analysis.noise reads it;
+    #: a device's noise parameters stay in its params, noise=off as params["noise"] = 0.0)
+    noise: dict[str, dict] = field(default_factory=dict)
 
     @property
     def has_output(self) -> bool:

@@ -119,13 +119,42 @@ class _Sets:
         return True
 
 
+def is_internal(node: str) -> bool:
+    """A node the expansion made (the signal's behind its rs, a transistor's inner base, an
+    op-amp's pole): never shown as a node, since the user never wrote it."""
+    return node.startswith("{") or ":" in node
+
+
 def describe_node(node: str, circuit: Circuit) -> str:
-    """A node as the messages name it (never an internal name)."""
+    """A node as the messages name it: an internal node by the element it belongs to."""
     if node == GND:
         return "the reference node"
     if node == "{sig}":
-        return f"the inner node of signal '{circuit.signal.name}'" if circuit.signal else "the signal's inner node"
+        return f"signal '{circuit.signal.name}'" if circuit.signal else "the signal"
+    if ":" in node:
+        owner = node.split(":", 1)[0]
+        kind = next((d.kind for d in circuit.devices if d.name == owner), "op-amp")
+        return f"{kind} '{owner}'"
     return f"'{node}'"
+
+
+def _shown_nodes(nodes) -> list[str]:
+    """The nodes of a group as the user wrote them (internal ones only when there is nothing else)."""
+    user = [n for n in nodes if not is_internal(n)]
+    return sorted(user or nodes)
+
+
+def reference_hint(circuit: Circuit, nodes, bs) -> str:
+    """Why a group may miss the reference: a node spelt like it in another case, or no element on it."""
+    ground = sorted(circuit.ground, key=lambda g: g != "gnd")
+    alike = [n for n in nodes if n.lower() in ("gnd", "ground") and n not in circuit.ground]
+    if alike:
+        return (f"; node names are case sensitive: '{alike[0]}' is not the reference node '{ground[0]}' "
+                f"(write {ground[0]}, or add 'ground {alike[0]}' to make it another name for the reference)")
+    if not any(GND in b.nodes for b in bs):
+        return (f"; no element is connected to the reference node '{ground[0]}' (node names are case sensitive; "
+                "'ground NODE' makes NODE another name for the reference)")
+    return ""
 
 
 def list_names(items, key=str) -> str:
@@ -311,8 +340,11 @@ def _floating_groups(k: _Ctx, tied: bool) -> list[Diagnostic]:
         inner: dict[str, list[Branch]] = {}
         cut: dict[str, list[Branch]] = {}
         sensed: dict[str, list[Branch]] = {}
+        idle: dict[str, list[Branch]] = {}  # elements with both ends on one node of the group
         for b in bs:
             ra, rb = find(b.nodes[0]), find(b.nodes[1])
+            if b.nodes[0] == b.nodes[1] and ra != root:
+                idle.setdefault(ra, []).append(b)
             if b.kind != "i":
                 if ra != root:
                     inner.setdefault(ra, []).append(b)
@@ -322,21 +354,22 @@ def _floating_groups(k: _Ctx, tied: bool) -> list[Diagnostic]:
             for r in {find(n) for n in b.senses} - {root, ra, rb}:
                 sensed.setdefault(r, []).append(b)
         for r, nodes in list(members.items())[:MAX_REPORTED]:
-            shown = list_names(sorted(nodes), lambda n: describe_node(n, circuit))
-            one = len(nodes) == 1
+            shown = list_names(_shown_nodes(nodes), lambda n: describe_node(n, circuit))
+            hint = reference_hint(circuit, nodes, bs)
+            one = len(_shown_nodes(nodes)) == 1
             what = "node" if one else "nodes"
             if r in cut:
                 c_ = cut[r]
                 msg = (f"{what} {shown} connect{'s' if one else ''} to the rest of the circuit only through "
                        f"current-defined branch{'es' if len(c_) > 1 else ''} {list_names(c_, _label)}{dc}: a cut set "
                        f"of current sources leaves {'its' if one else 'their'} voltage undefined (add a "
-                       f"resistance to the reference, e.g. a transistor's ro or a bias resistor){context}")
+                       f"resistance to the reference, e.g. a transistor's ro or a bias resistor){context}{hint}")
                 loc = _first_loc(c_, where)
             elif r in inner:
                 if tied and r not in sensed:
                     continue
                 msg = (f"{what} {shown} {'has' if one else 'have'} no path to the reference node{dc}{context}"
-                       f" (joined by {list_names(inner[r], _label)})")
+                       f" (joined by {list_names(inner[r], _label)}){hint}")
                 if tied:
                     msg += (f"; {list_names(sensed[r], _label)} read{'s' if len(sensed[r]) == 1 else ''}"
                             f" {'its' if one else 'their'} voltage, so the bias is undefined (add a bias"
@@ -346,8 +379,14 @@ def _floating_groups(k: _Ctx, tied: bool) -> list[Diagnostic]:
                 s_ = sensed.get(r, [])
                 msg = (f"{what} {shown} {'is' if one else 'are'} only sensed by {list_names(s_, _label)}"
                        f" (a control input draws no current): nothing sets {'its' if one else 'their'}"
-                       f" voltage{dc}{context}")
+                       f" voltage{dc}{context}{hint}")
                 loc = _first_loc(s_, where)
+            if r in idle:  # the likely cause is the element that joins nothing: blame it, not its neighbours
+                i_ = idle[r]
+                msg = (f"{list_names(i_, _label)} {'has' if len(i_) == 1 else 'have'} both ends on "
+                       f"{describe_node(i_[0].nodes[0], circuit)}, so {'it joins' if len(i_) == 1 else 'they join'} "
+                       f"nothing: {msg}")
+                loc = _first_loc(i_, where)
             diags.append(Diagnostic("error", loc, msg))
     return diags
 

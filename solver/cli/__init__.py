@@ -12,9 +12,10 @@ import importlib
 import sys
 
 from solver.diagnostics import InputError
+from solver.output.cautions import CAUTION
 
 COMMANDS = ("solve", "derive", "check", "bias", "sweep", "twoport",
-            "loop", "sensitivity", "spread", "tune", "report")
+            "loop", "sensitivity", "spread", "tune", "noise", "report")
 
 EPILOG = """\
 examples:
@@ -22,7 +23,12 @@ examples:
   portwise solve circuits/mic_preamp.pw --at 10kHz --json
 
 exit codes: 0 done, 1 the analysis ran but a verdict failed (claims), 2 bad input.
-The netlist language is described in grammar/README.md."""
+The netlist language is described in grammar/README.md.
+
+--force (every analysing command): analyse a bias-solved transistor outside its
+amplifying region. --overwrite (every command that writes a file): replace it.
+
+""" + CAUTION
 
 
 class _Parser(argparse.ArgumentParser):
@@ -45,8 +51,9 @@ def build_parser() -> argparse.ArgumentParser:
             mod = importlib.import_module(f"solver.cli.commands.{name}")
         except ModuleNotFoundError:
             continue
+        epilog = getattr(mod, "EPILOG", None)
         sp = sub.add_parser(name, help=mod.HELP, description=mod.DESCRIPTION,
-                            epilog=getattr(mod, "EPILOG", None),
+                            epilog=(epilog + "\n\n" if epilog else "") + CAUTION,
                             formatter_class=argparse.RawDescriptionHelpFormatter)
         sp.add_argument("--debug", action="store_true", help="show a traceback on internal errors")
         mod.add_arguments(sp)
@@ -69,9 +76,21 @@ def print_diagnostics(diags, stream=None) -> None:
         print(d.format(sources), file=stream)
 
 
+def _join_negative_values(argv: list[str]) -> list[str]:
+    """``--at -5Hz`` as ``--at=-5Hz``: argparse would take ``-5Hz`` for an option and say
+    nothing useful; joined, the option's own check says what is wrong with the value."""
+    out = []
+    for a in argv:
+        if out and out[-1].startswith("--") and "=" not in out[-1] and a[:1] == "-" and a[1:2].isdigit() | (a[1:2] == "."):
+            out[-1] += "=" + a
+        else:
+            out.append(a)
+    return out
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args = parser.parse_args(_join_negative_values(list(sys.argv[1:] if argv is None else argv)))
     if not getattr(args, "_run", None):
         parser.print_help()
         return 2

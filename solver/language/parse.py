@@ -56,7 +56,7 @@ _quantity = functools.lru_cache(maxsize=4096)(parse_quantity)  # netlists repeat
 # Terminal patterns, restated from grammar/portwise.lark (tests/test_parse_fastpath.py compares
 # them with the compiled grammar's ``Lark.terminals``).
 QUANTITY = (r"(?:\d+[RKkMGTpnuµμm]\d+|(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)"
-            r"(?:[ \t]*(?:[fpnuµμmkMGT]?(?:Ω|ohm|Hz|A\/V\^2|A\/V|\/V|V|A|F|H|S|K|W)|[fpnuµμmkMGT]|%))?"
+            r"(?:[ \t]*(?:[fpnuµμmkMGT]?(?:V\/√Hz|A\/√Hz|V\/rtHz|A\/rtHz|Ω|ohm|Hz|A\/V\^2|A\/V|\/V|V|A|F|H|S|K|W)|[fpnuµμmkMGT]|%))?"
             r"(?![A-Za-z0-9_µμΩ])")
 NAME = r"[A-Za-z_][A-Za-z0-9_]*"
 STRING = r'"(?:[^"\\\n]|\\.)*"'
@@ -583,18 +583,65 @@ def _run(start: str, text: str, file: str):
             raise
 
 
-_EXPECT_NAMES = {"NAME": "a name", "QUANTITY": "a number", "_NL": "end of line", "LPAR": "'('",
+_EXPECT_NAMES = {"NAME": "a name", "QUANTITY": "a value", "_NL": "end of line", "LPAR": "'('",
                  "RPAR": "')'", "COMMA": "','", "EQUAL": "'='", "STRING": "a quoted string",
-                 "$END": "end of file", "ADD_OP": "'+' or '-'", "MUL_OP": "'*' or '/'", "POW_OP": "'^'",
-                 "PAR_OP": "'||'", "CLAIM_OP": "'=' or '~'", "DOT": "'.'", "RANGE": "'..'", "WITHIN": "'within'",
-                 "VALUED_KW": "an element keyword", "CONTROLLED_KW": "an element keyword",
-                 "SENSED_KW": "an element keyword", "DEVICE_KW": "a device keyword"}
+                 "$END": "end of line", "ADD_OP": "'+' or '-'", "MUL_OP": "'*' or '/'", "POW_OP": "'^'",
+                 "PAR_OP": "'||'", "CLAIM_OP": "'=' or '~'", "DOT": "'.'", "RANGE": "'..'", "WITHIN": "'within'"}
+_OPERATORS = {"ADD_OP", "MUL_OP", "POW_OP", "PAR_OP"}
+STATEMENT_KEYWORDS = tuple(sorted(kw for _, kws, _ in STATEMENTS for kw in kws))
+
+
+def _is_keyword_terminal(t: str) -> bool:
+    """A terminal that starts a statement: a keyword's own (BLOCK) or a keyword class (VALUED_KW)."""
+    return t.endswith("_KW") or t.lower() in STATEMENT_KEYWORDS
 
 
 def _describe(expected) -> str:
-    names = sorted({_EXPECT_NAMES.get(t, t.lower() if t.isupper() and "_" in t else f"'{t}'" if len(t) < 3 else t)
-                    for t in expected})
-    return ", ".join(names[:6]) + (" or more" if len(names) > 6 else "")
+    """What the parser takes here, in the language's words (never a terminal's name), all of it.
+
+    Examples
+    --------
+    >>> _describe({"NAME", "QUANTITY", "LPAR", "ADD_OP"})
+    'a value'
+    >>> _describe({"RPAR", "COMMA"})
+    "')', ','"
+    """
+    exp = set(expected)
+    if any(_is_keyword_terminal(t) for t in exp):
+        return "a statement keyword (" + ", ".join(STATEMENT_KEYWORDS) + ")"
+    words = []
+    if {"NAME", "QUANTITY", "LPAR"} <= exp:
+        exp -= {"NAME", "QUANTITY", "LPAR", "ADD_OP"}
+        words.append("a value")
+    elif exp == {"NAME", "QUANTITY"}:
+        return "a node name"
+    elif exp == {"LPAR"}:
+        return "a node list such as (a, b)"
+    if len(exp & _OPERATORS) >= 2:
+        exp -= _OPERATORS
+        words.append("an operator (+ - * / ^ ||)")
+    if "COMMA" in exp and "EQUAL" not in exp and ("_NL" in exp or "$END" in exp):
+        exp.discard("COMMA")
+        words.append("',' before a parameter")
+    tail = "end of line" if exp & {"_NL", "$END"} else None
+    exp -= {"_NL", "$END"}
+    # a keyword's own terminal (WITHIN) is the keyword; lark's anonymous ones (__ANON_0) have no word
+    words += sorted({_EXPECT_NAMES.get(t, f"'{t.lower()}'" if t.isupper() else f"'{t}'")
+                     for t in exp if not t.startswith("__")})
+    if tail:
+        words.append(tail)
+    return ", ".join(words)
+
+
+def _unknown_keyword(word: str) -> str:
+    """The message for a line that starts with a name no statement has."""
+    import difflib
+    close = difflib.get_close_matches(word, STATEMENT_KEYWORDS, n=1, cutoff=0.6)
+    if word.lower() in STATEMENT_KEYWORDS:
+        return f"unknown statement '{word}'; did you mean '{word.lower()}'? (keywords are lower case)"
+    if close:
+        return f"unknown statement '{word}'; did you mean '{close[0]}'?"
+    return f"unknown statement '{word}'; a statement starts with a keyword ({', '.join(STATEMENT_KEYWORDS)})"
 
 
 def _syntax_message(e) -> str:
@@ -615,6 +662,8 @@ def _syntax_message(e) -> str:
                 expected = ip.accepts() or expected
             except Exception:  # noqa: BLE001 - the plain expected set is still right, only wider
                 pass
+        if tok.type == "NAME" and any(_is_keyword_terminal(t) for t in expected):
+            return _unknown_keyword(str(tok))
         return f"unexpected {what}; expected {_describe(expected)}"
     return "syntax error"
 
@@ -687,11 +736,47 @@ def parse(text: str, file: str = "<string>") -> Netlist:
     return _parse(text, file, fast=True)
 
 
+def compatibility_forms(text: str) -> str:
+    """Unicode compatibility characters outside strings replaced by their NFKC form.
+
+    The ohm sign U+2126 becomes the Greek capital omega U+03A9 the grammar takes, the
+    micro sign U+00B5 the Greek mu U+03BC, full-width digits and letters ASCII; only
+    characters whose NFKC form is one character are replaced, so every column stays
+    where it was. Quoted strings (a title) are kept as written.
+
+    References
+    ----------
+    Unicode Standard Annex #15, Unicode Normalization Forms (NFKC).
+
+    Examples
+    --------
+    >>> compatibility_forms("resistor R1 (a, b) 4.7 k\u2126") == "resistor R1 (a, b) 4.7 k\u03a9"
+    True
+    >>> compatibility_forms("let x = \uff14\uff17")
+    'let x = 47'
+    """
+    if text.isascii():
+        return text
+    import unicodedata
+
+    def one(m):
+        ch = m.group()
+        if ch[0] == '"':
+            return ch
+        n = unicodedata.normalize("NFKC", ch)
+        return n if len(n) == 1 else ch
+    return _COMPAT.sub(one, text)
+
+
+_COMPAT = re.compile(r'"(?:[^"\\\n]|\\.)*"|[^\x00-\x7f]')
+
+
 def _parse(text: str, file: str, fast: bool) -> Netlist:
     """:func:`parse`; ``fast=False`` is lark alone (the reference the fast path is tested against)."""
     diags = Diagnostics()
     if len(text) > MAX_FILE_BYTES or len(text.encode("utf-8", "surrogatepass")) > MAX_FILE_BYTES:
         raise error(Loc(file, 1, 1), f"file larger than {MAX_FILE_BYTES} bytes")
+    source, text = text, compatibility_forms(text)
     _check_text(text, file, diags)
     diags.check()
     stmts = None
@@ -711,6 +796,7 @@ def _parse(text: str, file: str, fast: bool) -> Netlist:
                 if ex.depth(e) > MAX_EXPR_DEPTH:
                     diags.error(e.loc, f"expression nested deeper than {MAX_EXPR_DEPTH} levels")
     diags.check()
+    nl.source = source  # as the user wrote it (compatibility forms included)
     return nl
 
 

@@ -32,11 +32,15 @@ KELVIN = dim(k=1)
 WATT = dim(v=1, a=1)
 A_PER_V2 = dim(v=-2, a=1)
 PER_VOLT = dim(v=-1)
+#: noise densities (one-sided amplitude spectral densities): V/sqrt(Hz), A/sqrt(Hz)
+V_PER_RTHZ = dim(v=1, s=Fraction(1, 2))
+A_PER_RTHZ = dim(a=1, s=Fraction(1, 2))
 
 PREFIXES = {"f": 1e-15, "p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "μ": 1e-6,
             "m": 1e-3, "k": 1e3, "M": 1e6, "G": 1e9, "T": 1e12}
 UNITS = {"Ω": OHM, "ohm": OHM, "V": VOLT, "A": AMP, "F": FARAD, "H": HENRY, "S": SIEMENS,
-         "Hz": HERTZ, "K": KELVIN, "W": WATT, "A/V^2": A_PER_V2, "A/V": SIEMENS, "/V": PER_VOLT}
+         "Hz": HERTZ, "K": KELVIN, "W": WATT, "A/V^2": A_PER_V2, "A/V": SIEMENS, "/V": PER_VOLT,
+         "V/√Hz": V_PER_RTHZ, "A/√Hz": A_PER_RTHZ, "V/rtHz": V_PER_RTHZ, "A/rtHz": A_PER_RTHZ}
 # the RKM letter stands for the decimal point and scales the value (IEC 60062, 4k7 = 4.7e3)
 RKM_LETTERS = {"R": 1.0, "K": 1e3, "k": 1e3, "M": 1e6, "G": 1e9, "T": 1e12,
                "p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "m": 1e-3}
@@ -47,7 +51,8 @@ _QUANTITY = re.compile(rf"(?P<rkm>{_RKM})|(?P<dec>{_DEC})")
 _RKM_NAME = re.compile(r"[RKkMGTpnuµμm]\d+")
 
 NAMES = {OHM: "Ω", VOLT: "V", AMP: "A", FARAD: "F", HENRY: "H", SIEMENS: "S", HERTZ: "Hz",
-         KELVIN: "K", WATT: "W", A_PER_V2: "A/V^2", PER_VOLT: "1/V", ONE: "1"}
+         KELVIN: "K", WATT: "W", A_PER_V2: "A/V^2", PER_VOLT: "1/V", ONE: "1",
+         V_PER_RTHZ: "V/√Hz", A_PER_RTHZ: "A/√Hz"}
 
 
 class UnitError(ValueError):
@@ -79,6 +84,11 @@ def parse_quantity(text: str) -> tuple[float, Dim | None]:
     suffix = text[m.end():].strip()
     if not suffix:
         return value, None
+    if m.group("rkm") and suffix[0] in PREFIXES and suffix not in UNITS:
+        # 4k7k: the RKM letter is already the prefix (IEC 60062); a second one is a slip, not 4.7 M
+        code, unit = m.group("rkm"), suffix[1:]
+        raise UnitError(f"the RKM code {code} already carries its multiplier ({eng(_rkm_value(code))}); "
+                        f"a prefix after it is not allowed: write {code}{unit}")
     if suffix == "%":
         return value * 0.01, ONE
     if suffix in UNITS:

@@ -31,9 +31,11 @@ def bias_lines(c: Circuit, res) -> list[str]:
     """
     how = "Newton–Raphson" if res.method == "newton" else f"Newton–Raphson with {res.method}"
     out = [f"DC operating point ({how}, {res.iterations} iteration{'s' if res.iterations != 1 else ''})"]
-    width = max((len(n) for n in res.nodes), default=1)
+    from solver.circuit.topology import is_internal
+    shown = {n: v for n, v in res.nodes.items() if not is_internal(n)}  # nodes the user wrote (the JSON keeps all)
+    width = max((len(n) for n in shown), default=1)
     out.append("  node voltages")
-    for n, v in res.nodes.items():
+    for n, v in shown.items():
         out.append(f"    {n:<{width}}  {eng(v, 'V')}")
     if c.devices:
         out.append("  devices")
@@ -65,13 +67,13 @@ def _from_bias(d) -> bool:
 
 def bias_report(c: Circuit, res) -> str:
     """The full ``portwise bias`` text: title, table, warnings, cautions."""
-    from solver.output.report import CAUTION, safety_notes
+    from solver.output.report import closing_lines
     out = [c.title or c.file, ""]
     out.extend(bias_lines(c, res))
-    notes = list(res.notes) + safety_notes(c)
-    out.append("")
-    out.extend(notes)
-    out.append(CAUTION)
+    if res.notes:
+        out.append("")
+        out.extend(res.notes)
+    out.extend(closing_lines(c, res.notes))
     return "\n".join(out)
 
 

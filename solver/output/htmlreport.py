@@ -69,7 +69,7 @@ class Options:
 class Context:
     """What every builder reads: the solve result, the options and the optional analyses."""
 
-    result: object              # solver.api.Result: circuit, frequency_hz, quantities, bias, warnings, to_json()
+    result: object              # solver.api.Result: circuit, frequency_hz, quantities, bias, warnings, to_dict()
     options: Options
     version: str
     date: str
@@ -244,7 +244,7 @@ def ports_section(ctx: Context) -> Section:
     body.append(port_table(r.quantities, UNITS))
     if r.devices:
         body.append("<h3>Small-signal parameters</h3>" + device_params_table(r.devices))
-    return Section("ports", "Port quantities", "".join(body), r.to_json())
+    return Section("ports", "Port quantities", "".join(body), r.to_dict())
 
 
 # --- 4. symbolic forms and claims --------------------------------------------------------------

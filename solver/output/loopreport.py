@@ -13,7 +13,7 @@ from solver.analysis.loop import PM_WARN_DEG, LoopAnalysis
 from solver.analysis.scenarios import UNITS
 from solver.circuit.model import Circuit
 from solver.diagnostics import Diagnostic
-from solver.output.report import CAUTION, eng, safety_notes
+from solver.output.report import closing_lines, eng
 
 
 def _c(z) -> dict | None:
@@ -92,9 +92,7 @@ class LoopResult:
         else:
             out += self._point_lines()
         out += self._pole_lines()
-        out.append("")
-        out.extend(safety_notes(c))
-        out.append(CAUTION)
+        out.extend(closing_lines(c, self.notes))  # the cautions only with a hazardous supply
         return "\n".join(out)
 
     def _point_lines(self) -> list[str]:

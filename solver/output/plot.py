@@ -51,27 +51,51 @@ def bode(freqs, h, fmt: str = "png", title: str = "", quantity: str = "Gv",
     """
     import matplotlib
     matplotlib.use("Agg", force=True)
+    fig = figure(freqs, h, title, quantity, corners, reference_db)
+    buf = io.BytesIO()
+    with matplotlib.rc_context({"svg.fonttype": "none"}):  # SVG text stays text (searchable, editable)
+        fig.savefig(buf, format=fmt)
+    return buf.getvalue()
+
+
+#: quantities that are impedances: plotted in Ω on a log axis, never as "dB" of ohms
+IMPEDANCES = ("Rin", "Rout", "Zt", "Zto")
+
+
+def figure(freqs, h, title: str = "", quantity: str = "Gv",
+           corners: dict[str, float | None] | None = None, reference_db: float | None = None):
+    """The Bode figure itself (a :class:`matplotlib.figure.Figure`), as :func:`bode` renders it.
+
+    A gain's magnitude is in dB; an impedance's (Rin, Rout, Zt, Zto) in Ω on a log axis.
+    The corner labels sit above the magnitude panel, outside the plotting area, so they
+    never cover the curve; the dashed lines mark the corners on both panels.
+    """
     from matplotlib.figure import Figure
 
     from solver.output.report import eng
 
     freqs = np.asarray(freqs, float)
     h = np.asarray(h, complex)
+    ohms = quantity in IMPEDANCES
     with np.errstate(all="ignore"):
-        mag = 20 * np.log10(np.abs(h))
+        mag = np.abs(h) if ohms else 20 * np.log10(np.abs(h))
     phase = np.degrees(np.unwrap(np.angle(np.where(np.isfinite(h), h, 1.0))))
     phase = np.where(np.isfinite(h), phase, np.nan)
+    finite = phase[np.isfinite(phase)]
+    if finite.size:  # the unwrapped curve, shifted by whole turns so that it starts in (-180°, 180°]
+        phase = phase - 360.0 * math.ceil((finite[0] - 180.0) / 360.0)
     fig = Figure(figsize=(7.5, 6.0), dpi=100)
     ax_m, ax_p = fig.subplots(2, 1, sharex=True)
-    ax_m.semilogx(freqs, mag, color=TRACE, linewidth=1.6)
+    (ax_m.loglog if ohms else ax_m.semilogx)(freqs, mag, color=TRACE, linewidth=1.6)
     ax_p.semilogx(freqs, phase, color=TRACE, linewidth=1.6)
-    ax_m.set_ylabel(f"|{quantity}| (dB)")
+    ax_m.set_ylabel(f"|{quantity}| (Ω)" if ohms else f"|{quantity}| (dB)")
     ax_p.set_ylabel("phase (°)")
     ax_p.set_xlabel("frequency (Hz)")
     for ax in (ax_m, ax_p):
         ax.grid(True, which="both", color=GRID, linewidth=0.6)
         for side in ("top", "right"):
             ax.spines[side].set_visible(False)
+    labels = []
     for key, label in (("f_low", "f_L"), ("f_high", "f_H")):
         f = (corners or {}).get(key)
         if f is None or not math.isfinite(f):
@@ -79,13 +103,12 @@ def bode(freqs, h, fmt: str = "png", title: str = "", quantity: str = "Gv",
         for ax in (ax_m, ax_p):
             ax.axvline(f, color=ACCENT, linestyle="--", linewidth=1.0)
         if reference_db is not None:
-            ax_m.plot([f], [reference_db - 20 * math.log10(math.sqrt(2))], "o", color=ACCENT, markersize=5)
-        ax_m.annotate(f"{label} = {eng(f, 'Hz', 3)}", xy=(f, 1.0), xycoords=("data", "axes fraction"),
-                      xytext=(4, -12), textcoords="offset points", color=ACCENT, fontsize=9)
+            level = 10 ** (reference_db / 20) / math.sqrt(2) if ohms else reference_db - 20 * math.log10(math.sqrt(2))
+            ax_m.plot([f], [level], "o", color=ACCENT, markersize=5)
+        labels.append(f"{label} = {eng(f, 'Hz', 3)}")
+    if labels:  # above the panel: the plotting area is the curve's alone
+        ax_m.set_title("   ".join(labels), loc="left", color=ACCENT, fontsize=9)
     if title:
         fig.suptitle(title, fontsize=11)
     fig.tight_layout()
-    buf = io.BytesIO()
-    with matplotlib.rc_context({"svg.fonttype": "none"}):  # SVG text stays text (searchable, editable)
-        fig.savefig(buf, format=fmt)
-    return buf.getvalue()
+    return fig

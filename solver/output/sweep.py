@@ -10,7 +10,7 @@ import numpy as np
 from solver.analysis import frequency as fr
 from solver.analysis.response import Summary
 from solver.analysis.scenarios import DEFINITIONS, UNITS
-from solver.output.report import CAUTION, eng, safety_notes
+from solver.output.report import closing_lines, eng, phase_deg
 
 
 def summary_json(sm: Summary) -> dict:
@@ -21,7 +21,7 @@ def summary_json(sm: Summary) -> dict:
                   "f_low_hz": None, "f_high_hz": None, "bandwidth_hz": None, "gbw_hz": None}
     if b is not None:
         summ.update(midband_hz=b.midband_hz, midband_db=_db(b.midband),
-                    midband_phase_deg=math.degrees(cmath.phase(b.midband)),
+                    midband_phase_deg=phase_deg(b.midband),
                     f_low_hz=b.f_low_hz, f_high_hz=b.f_high_hz, bandwidth_hz=b.bandwidth_hz,
                     gbw_hz=sm.gbw_hz)
     summ["poles"] = None if sm.poles is None else [_c(p) for p in sm.poles]
@@ -63,7 +63,7 @@ def _pz_lines(v: np.ndarray) -> list[str]:
             lines.append(f"  {'0':>26}   {'0 Hz':>12}")
             continue
         q = fr.q_factor(p)
-        rad = f"{p.real:.5g}" + (f" {p.imag:+.5g}j" if p.imag else "")
+        rad = f"{p.real:.5g}" + (f" {'+' if p.imag > 0 else '-'} j{abs(p.imag):.5g}" if p.imag else "")  # a + jb
         tail = f"   Q {q:.3g}" if q is not None else ""
         side = "   (right half-plane)" if p.real > 0 else ""
         lines.append(f"  {rad:>26}   {eng(abs(p) / (2 * math.pi), 'Hz'):>12}{tail}{side}")
@@ -81,8 +81,9 @@ def text_report(sm: Summary) -> str:
                    "no midband and no corners")
     else:
         db = _db(b.midband)
-        level = f"{db:.2f} dB" if db is not None else eng(abs(b.midband), unit)
-        out.append(f"  midband         {level}  ∠ {math.degrees(cmath.phase(b.midband)):.1f}°   "
+        # an impedance's level in Ω, never "dB" of ohms
+        level = f"{db:.2f} dB" if db is not None and unit != "ohm" else eng(abs(b.midband), "Ω" if unit == "ohm" else unit)
+        out.append(f"  midband         {level}  ∠ {phase_deg(b.midband):.1f}°   "
                    f"(|{sm.quantity}| = {eng(abs(b.midband), unit if unit != 'ohm' else 'Ω')} at "
                    f"{'DC' if b.midband_hz == 0 else eng(b.midband_hz, 'Hz')})")
         out.append(f"  f_low  (-3 dB)  {_hz(b.f_low_hz)}")
@@ -102,9 +103,7 @@ def text_report(sm: Summary) -> str:
     if sm.notes:
         out.append("")
         out.extend(f"note: {n}" for n in sm.notes)
-    out.append("")
-    out.extend(safety_notes(c))
-    out.append("The estimates are hand methods and approximate by nature. " + CAUTION)
+    out.extend(closing_lines(c))
     return "\n".join(out)
 
 
@@ -147,7 +146,7 @@ def csv_text(freqs: np.ndarray, h: np.ndarray) -> str:
     for f, z in zip(freqs, h):
         if cmath.isfinite(z):
             db = f"{20 * math.log10(abs(z)):.10g}" if z != 0 else ""
-            lines.append(f"{f:.10g},{db},{math.degrees(cmath.phase(z)):.10g},{z.real:.12g},{z.imag:.12g}")
+            lines.append(f"{f:.10g},{db},{phase_deg(z):.10g},{z.real:.12g},{z.imag:.12g}")
         else:
             lines.append(f"{f:.10g},,,,")
     return "\n".join(lines) + "\n"

@@ -176,8 +176,10 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
         ``keep`` (when given) lists the symbols that stay symbolic; ``numeric``
         names symbols to replace by their netlist values.
     which : iterable of quantity names or None (all)
-    compact : bool
-        Return nested, unexpanded sympy expressions instead of expanded ratios.
+    compact : bool or "nodes"
+        Return nested, unexpanded sympy expressions instead of expanded ratios; "nodes":
+        (numerator, denominator) as :class:`solver.analysis.symbolic.forms.Node` DAGs
+        sharing every memoised minor (for :func:`solver.analysis.symbolic.forms.compact_form`).
 
     Returns
     -------
@@ -194,7 +196,11 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
     kept = choose_symbols(c, keep, numeric)
     base = small_signal_elements(c)
     ring = Ring(variable_names(kept, [scenario_elements(c)]))
-    domain = _compact_domain(ring, kept) if compact else None
+    if compact == "nodes":  # the printer's own expression nodes (no sympy): forms.compact_domain
+        from solver.analysis.symbolic.forms import compact_domain
+        domain = compact_domain(ring)
+    else:
+        domain = _compact_domain(ring, kept) if compact else None
     configs: dict = {}
 
     def stamped(m):
@@ -210,7 +216,9 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
         s = stamped(m)
         num = s.read(m.num)
         den = s.read(m.den) if m.den is not None else s.det
-        if domain is not None:
+        if compact == "nodes":
+            result[q] = (num, den)
+        elif domain is not None:
             result[q] = num / den
         else:
             result[q] = SymbolicQuantity(q, RationalFunction(num, den, ring).cancel(), kept)

@@ -1,19 +1,24 @@
 """portwise derive: a port quantity as an exact expression in the circuit's own symbols."""
 from __future__ import annotations
 
-HELP = "exact symbolic expression of a port quantity (with || for parallel combinations)"
+HELP = "exact symbolic expression of a port quantity, written in design-oriented form"
 DESCRIPTION = """\
 Solve the small-signal circuit symbolically: every element value is a symbol
 named after the element (RC, RL), the signal's resistance is VS.rs, a BJT gives
 Q1.gm, Q1.rpi, Q1.ro (when finite) ... and s is the complex frequency. The
-result is printed in the netlist's expression language, with || for the
-parallel combinations it recognises (e.g. -Q1.gm*(Q1.ro || RC || RL))."""
+result is printed in the netlist's expression language, built from the circuit's
+structure: parallel (||), series and divider forms and the extra-element form
+H0*(1 + x/Zn)/(1 + x/Zd), with the device symbols Q1.beta = Q1.gm*Q1.rpi,
+Q1.re = Q1.rpi/(Q1.beta + 1), Q1.alpha = Q1.beta/(Q1.beta + 1) where they shorten
+it (e.g. -Q1.gm*(Q1.ro || RC || RL)). Big results are written once per shared part,
+as 'where' lines below the expression; --expanded prints the flat ratio."""
 EPILOG = """\
 examples:
   portwise derive circuits/mic_preamp.pw Av
   portwise derive circuits/mic_preamp.pw Av --limit Q1.ro=oo
   portwise derive circuits/mic_preamp.pw all --keep RC,RL,Q1.gm --latex
   portwise derive circuits/mic_preamp.pw Gv --dominant 5% --json
+  portwise derive circuits/mic_preamp.pw Rin --expanded
 
 Symbols not kept take their netlist values. --dominant drops, coefficient by
 coefficient of s, the terms whose summed size at the nominal values is within the
@@ -48,8 +53,13 @@ def add_arguments(p) -> None:
     p.add_argument("--at", metavar="FREQ", help="frequency for the --dominant error (default as solve)")
     p.add_argument("--expand-bias", action="store_true",
                    help="write bias-form devices' gm, rpi, ro in terms of ic, beta, va and V_T")
-    p.add_argument("--latex", action="store_true", help="print LaTeX (\\parallel for ||)")
+    p.add_argument("--latex", action="store_true", help="print LaTeX (\\parallel for ||); with --json, add it")
+    p.add_argument("--expanded", action="store_true", help="print the flat sum-of-products ratio")
     p.add_argument("--json", action="store_true", help="print JSON")
+    from solver.cli.commands.common import add_force
+    add_force(p)
+    p.add_argument("--midband", action="store_true", help="derive from the midband circuit: coupling and bypass "
+                   "capacitors shorted, device and wiring capacitances opened (the classification is listed)")
     p.add_argument("--around", metavar="NAME",
                    help="for T, Ginf, G0: the loop's controlled source (Q1, U1, G1), as portwise loop")
 
@@ -70,13 +80,21 @@ def run(args) -> int:
     from solver.analysis.pipeline import analysis_frequency, load, prepare
     from solver.analysis.symbolic.claims import parse_limit
     from solver.analysis.symbolic.derive import derive
+    from solver.analysis.symbolic.forms import SYMPY_MAX_TERMS
     from solver.analysis.symbolic.ports import circuit_symbols
     from solver.cli.commands.common import emit_json, frequency, print_warnings
     from solver.diagnostics import error
     at = frequency(args.at) if args.at is not None else None
-    p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac")  # the same input checks as solve
+    p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac", args.force)  # the same input checks as solve
     c = p.circuit
     print_warnings(p.warnings)
+    midband = None
+    if args.midband:  # the midband circuit goes down the same derive path
+        from solver.analysis.midband import check_midband, midband_circuit
+        c, midband = midband_circuit(c)
+        if check_midband(c):
+            raise p.fail(check_midband(c))
+        at = 0.0
     if args.quantity in LOOP_CHOICES:
         if not args.around:
             raise error(None, f"{args.quantity} needs --around NAME (the controlled source of the loop)")
@@ -96,30 +114,22 @@ def run(args) -> int:
     numeric = _names(args.numeric)
     tol = tolerance(args.dominant) if args.dominant is not None else None
     f, _ = analysis_frequency(c, at)
-    results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias, around=args.around)
+    results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias, args.expanded, around=args.around)
     if args.json:
-        items = []
-        for d in results:
-            item = {"quantity": d.quantity, "expression": d.plain, "latex": d.latex, "sympy": d.sympy,
-                    "symbols": d.symbols}
-            if d.pruned is not None:
-                item["dominant"] = {"tolerance": tol, "frequency_hz": f, "terms_dropped": d.pruned.dropped,
-                                    "terms_kept": d.pruned.kept,
-                                    "coefficient_error": d.pruned.coefficient_error,
-                                    "error_at_frequency": d.pruned.error_at_f,
-                                    "error_bound_at_frequency": _finite(d.pruned.bound_at_f)}
-            items.append(item)
-        emit_json(items[0] if len(items) == 1 else {"quantities": items})
+        from solver.output.derivation import derive_json
+        emit_json(derive_json(results, tol, f, expanded=args.expanded, latex=args.latex, midband=midband))
         return 0
+    if midband is not None:
+        print("\n".join(midband.lines()))
     for d in results:
-        text = d.latex if args.latex else d.plain
-        print(f"{d.quantity} = {text}")
+        if args.latex:
+            print(f"{d.quantity} = {d.latex}")
+        else:
+            print(f"{d.quantity} = {d.plain}")
+            for name, text in d.where:
+                print(f"  where {name} = {text}")
         if d.pruned is not None:
             print(f"  dominant terms ({tol:.3g} tolerance): dropped {d.pruned.dropped}, kept {d.pruned.kept}; "
                   f"error at {f:g} Hz {d.pruned.error_at_f:.3g} (bound {d.pruned.bound_at_f:.3g})")
     return 0
 
-
-def _finite(x: float):
-    import math
-    return x if math.isfinite(x) else "inf"

@@ -41,8 +41,7 @@ def add_arguments(p) -> None:
     p.add_argument("--plot", metavar="FILE", help="with a sweep: write |T| and ∠T (.png or .svg)")
     p.add_argument("--overwrite", action="store_true", help="replace a plot file that exists")
     p.add_argument("--force", action="store_true",
-                   help="analyse a transistor outside its amplifying region (and, until --overwrite is "
-                        "everywhere, replace an existing plot file)")
+                   help="analyse a transistor outside its amplifying region (the output warns)")
 
 
 def run(args) -> int:
@@ -71,7 +70,7 @@ def run(args) -> int:
     if args.toward and not args.break_node:
         raise error(None, "--toward goes with --break")
     toward = [n.strip() for v in args.toward or () for n in v.split(",") if n.strip()] or None
-    replace = args.overwrite or args.force
+    replace = args.overwrite  # --force is the analysis' only (the same on every command)
     fmt = None
     if args.plot:
         if not sweep:

@@ -20,8 +20,11 @@ def add_arguments(p) -> None:
     p.add_argument("--at", metavar="FREQ", help="analysis frequency, e.g. 10kHz (default: the detected midband "
                    "frequency; DC for a circuit without capacitors or inductors)")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
-    p.add_argument("--force", action="store_true", help="compute port quantities even when a bias-solved "
-                   "transistor is outside its amplifying region (the output warns)")
+    from solver.cli.commands.common import add_force
+    add_force(p)
+    p.add_argument("--midband", action="store_true", help="solve the midband circuit: coupling and bypass "
+                   "capacitors shorted, device and wiring capacitances opened (each capacitor classified by its "
+                   "time constant against the band; the classification is listed)")
     p.add_argument("--symbolic", action="store_true", help="also show each port quantity as a formula in the "
                    "circuit's symbols when the circuit is small enough to do so quickly (loads sympy: "
                    "about half a second more; 'portwise derive' does any size)")
@@ -33,11 +36,14 @@ def run(args) -> int:
     from solver.output.report import solve_report
     c = api.load(args.file)
     at = frequency(args.at) if args.at is not None else None
-    result = api.solve(c, at, force=args.force)
+    if args.midband and at is not None:
+        from solver.diagnostics import error
+        raise error(None, "--midband is the band's middle, without a frequency: give --midband or --at, not both")
+    result = api.solve(c, at, force=args.force, midband=args.midband)
     print_warnings(result.warnings)
     c = result.circuit
     if args.json:
-        obj = result.to_json()
+        obj = result.to_dict()
         if result.bias is not None:
             from solver.output.biasreport import bias_json
             obj["bias"] = bias_json(result.bias, c)

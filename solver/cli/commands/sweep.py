@@ -31,7 +31,9 @@ def add_arguments(p) -> None:
                    help="Gv (default; Zt for a current signal), Gvo, Av, Avo, Ai, Rin, Rout, Zt, Zto")
     p.add_argument("--plot", metavar="FILE", help="write a Bode plot (.png or .svg)")
     p.add_argument("--csv", metavar="FILE", help="write f_hz, magnitude_db, phase_deg, re, im")
-    p.add_argument("--force", action="store_true", help="replace output files that exist")
+    from solver.cli.commands.common import add_force, add_overwrite
+    add_overwrite(p)
+    add_force(p)
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
 
 
@@ -44,7 +46,7 @@ def run(args) -> int:
     from solver.analysis.frequency import ResponseError, default_quantity, frequencies
     from solver.analysis.pipeline import load, prepare
     from solver.analysis.response import analyse
-    from solver.cli.commands.common import emit_json, frequency, print_warnings, write_file
+    from solver.cli.commands.common import emit_json, frequency, print_warnings, refuse_existing, write_file
     from solver.diagnostics import error
     from solver.output.sweep import csv_text, summary_json, text_report
     f_from = frequency(args.f_from, "--from")
@@ -62,10 +64,8 @@ def run(args) -> int:
         plot_fmt = Path(args.plot).suffix.lower().lstrip(".")
         if plot_fmt not in ("png", "svg"):
             raise error(None, "--plot: the file name ends in .png or .svg")
-    for out in (args.csv, args.plot):  # refuse before any work, so nothing is half written
-        if out and Path(out).exists() and not args.force:
-            raise error(None, f"'{out}' exists; use --force to replace it")
-    p = prepare(load(args.file), "ports", "ac")
+    refuse_existing((args.csv, args.plot), args.overwrite)  # before any work, so nothing is half written
+    p = prepare(load(args.file), "ports", "ac", args.force)
     c = p.circuit
     quantity = args.quantity or default_quantity(c)
     freqs = frequencies(f_from, f_to, args.points, args.per_decade)
@@ -77,14 +77,14 @@ def run(args) -> int:
         raise error(None, f"--quantity: {e}") from None
     print_warnings(p.warnings)
     if args.csv:
-        write_file(args.csv, csv_text(freqs, sm.h), args.force)
+        write_file(args.csv, csv_text(freqs, sm.h), args.overwrite)
     if args.plot:
         from solver.output.plot import bode
         b = sm.band
         img = bode(freqs, sm.h, plot_fmt, c.title or Path(c.file).stem, quantity,
                    {"f_low": b.f_low_hz, "f_high": b.f_high_hz} if b else None,
                    (summary_json(sm)["summary"]["midband_db"] if b else None))
-        write_file(args.plot, img, args.force)
+        write_file(args.plot, img, args.overwrite)
     if args.json:
         emit_json(summary_json(sm))
     else:

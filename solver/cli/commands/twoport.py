@@ -29,7 +29,9 @@ def add_arguments(p) -> None:
     g = p.add_mutually_exclusive_group()
     g.add_argument("--points", type=int, metavar="N", help="log-spaced sweep points in all")
     g.add_argument("--per-decade", type=int, metavar="N", help="sweep points per decade (default 20)")
-    p.add_argument("--force", action="store_true", help="replace an output file that exists")
+    from solver.cli.commands.common import add_force, add_overwrite
+    add_overwrite(p)
+    add_force(p)
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
 
 
@@ -45,33 +47,20 @@ def _z0(text: str) -> float:
     return v
 
 
-def _matrix_json(m):
-    if m is None:
-        return None
-    return [[{"re": float(m[i, j].real), "im": float(m[i, j].imag)} for j in range(2)] for i in range(2)]
-
-
 def to_json(tp) -> dict:
-    from solver.analysis.twoport import NAMES
-    out = {"frequency_hz": tp.frequency_hz, "z0": tp.z0,
-           "ports": {"1": list(tp.ports[0]), "2": list(tp.ports[1])}}
-    for name in NAMES:
-        out[name] = _matrix_json(tp.matrices.get(name))
-    out["reasons"] = dict(tp.reasons)
-    return out
+    from solver.output.twoportjson import twoport_json
+    return twoport_json(tp)
 
 
-def _cell(z: complex, unit: str) -> str:
-    from solver.output.report import eng
-    if abs(z.imag) <= 1e-9 * abs(z):
-        return eng(z.real, unit)
-    return f"{eng(z.real)} {'+' if z.imag >= 0 else '-'} j{eng(abs(z.imag))} {unit}".rstrip()
+def _cell(z: complex, unit: str, scale: float | None = None) -> str:
+    from solver.output.report import complex_text
+    return complex_text(z, unit, scale)
 
 
 def text_report(c, tp) -> str:
     from pathlib import Path
 
-    from solver.output.report import CAUTION, eng, safety_notes
+    from solver.output.report import closing_lines, eng, phase_deg
     from solver.analysis.twoport import NAMES, UNITS
     titles = {"z": "z (open-circuit impedance)", "y": "y (short-circuit admittance)", "h": "h (hybrid)",
               "g": "g (inverse hybrid)", "abcd": "ABCD (transmission; I2 out of port 2)",
@@ -89,7 +78,11 @@ def text_report(c, tp) -> str:
             continue
         u = UNITS[name]
         labels = ("A", "B", "C", "D") if name == "abcd" else tuple(f"{name}{k}" for k in ("11", "12", "21", "22"))
-        cells = [_cell(m[i, j], u[2 * i + j]) for i in range(2) for j in range(2)]
+        # rounding noise relative to the matrix's largest entry (in its own units: like entries only)
+        scale = max(abs(m[i, j]) for i in range(2) for j in range(2) if u[2 * i + j] == u[0]) if name != "abcd" \
+            else None
+        cells = [_cell(m[i, j], u[2 * i + j], scale if u[2 * i + j] == u[0] else None)
+                 for i in range(2) for j in range(2)]
         w = max(len(x) for x in cells)
         for i in range(2):
             out.append(f"  {labels[2 * i]:<4} {cells[2 * i]:<{w}}   {labels[2 * i + 1]:<4} {cells[2 * i + 1]}")
@@ -98,11 +91,10 @@ def text_report(c, tp) -> str:
             for i, j in ((0, 0), (1, 0), (0, 1), (1, 1)):
                 z = m[i, j]
                 db = f"{20 * math.log10(abs(z)):.2f} dB" if z != 0 else "-inf dB"
-                out.append(f"  |S{i + 1}{j + 1}| {db} ∠ {math.degrees(math.atan2(z.imag, z.real)):.1f}°")
+                out.append(f"  |S{i + 1}{j + 1}| {db} ∠ {round(phase_deg(z), 1) + 0.0:.1f}°")  # never "-0.0°"
         out.append("")
-    out.extend(safety_notes(c))
-    out.append(CAUTION)
-    return "\n".join(out)
+    out.extend(closing_lines(c))
+    return "\n".join(out).rstrip("\n")
 
 
 def run(args) -> int:
@@ -113,7 +105,7 @@ def run(args) -> int:
     from solver.analysis.twoport import TwoPortError, s_sweep, two_port
     from solver.diagnostics import error
     from solver.output.touchstone import touchstone
-    from solver.cli.commands.common import emit_json, frequency, print_warnings, write_file
+    from solver.cli.commands.common import emit_json, frequency, print_warnings, refuse_existing, write_file
     z0 = _z0(args.z0)
     sweep = args.f_from is not None or args.f_to is not None
     if args.touchstone and not (args.f_from and args.f_to):
@@ -131,7 +123,8 @@ def run(args) -> int:
             raise error(None, "--points: between 2 and 1000000")
         if args.per_decade is not None and not 1 <= args.per_decade <= 100_000:
             raise error(None, "--per-decade: between 1 and 100000")
-    p = prepare(load(args.file), "twoport", "dc" if at == 0 else "ac")  # faults inside the network, named first
+    refuse_existing((args.touchstone,), args.overwrite)
+    p = prepare(load(args.file), "twoport", "dc" if at == 0 else "ac", args.force)  # faults inside the network, named first
     c = p.circuit
     try:
         tp = two_port(c, at, z0) if at is not None else None
@@ -149,7 +142,7 @@ def run(args) -> int:
         text = touchstone(freqs, s, z0, [f"{c.title or Path(c.file).stem}: 2-port S-parameters from portwise",
                                          f"port 1 = ({a}, {b}) signal removed; port 2 = ({p}, {q}) load removed",
                                          "small-signal estimates, not a safety assessment"])
-        write_file(args.touchstone, text, args.force)
+        write_file(args.touchstone, text, args.overwrite)
     if tp is None:
         return 0
     if args.json:
