@@ -20,7 +20,7 @@ from pathlib import Path
 
 from solver.analysis import pipeline
 from solver.analysis.pipeline import analysis_frequency, load, loads, read_source  # noqa: F401  (the API)
-from solver.analysis.ports import UNITS, PortError, port_quantities
+from solver.analysis.ports import UNITS, PortError, port_quantities, supply_gains, supply_rejection
 from solver.analysis.singular import conditioning, explain_singular
 from solver.bulk import paused_gc
 from solver.circuit.model import Circuit
@@ -41,6 +41,8 @@ class Result:
     bias: object = None
     #: every warning found on the way (elaboration, DC view, bias, topology, conditioning)
     warnings: list[Diagnostic] = field(default_factory=list)
+    #: {supply: {"gain": complex, "unit": "V/V" | "ohm", "psrr_db": float | None}} (PSRR = |Av/A_supply|)
+    supply_rejection: dict[str, dict] = field(default_factory=dict)
 
     def to_json(self) -> dict:
         out = {
@@ -50,6 +52,10 @@ class Result:
                                "unit": UNITS[k]} for k, v in self.quantities.items()},
             "devices": {name: {k: _num(v) for k, v in p.items()} for name, p in self.devices.items()},
         }
+        out["supply_rejection"] = {
+            name: {"gain": {"re": _num(r["gain"].real), "im": _num(r["gain"].imag), "unit": r["unit"]},
+                   "psrr_db": None if r["psrr_db"] is None else _num(r["psrr_db"])}
+            for name, r in self.supply_rejection.items()}
         if self.notes:  # e.g. "evaluated at the detected midband frequency"
             out["notes"] = list(self.notes)
         return out
@@ -91,4 +97,15 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
         except PortError as e:
             raise p.fail(explain_singular(p.circuit, f, str(e))) from None
         warnings = p.warnings + conditioning(p.circuit, f)
-    return Result(p.circuit, f, pr.quantities, device_table(p.circuit), p.notes + why, p.bias, warnings)
+        rejection = _rejection(p.circuit, f, pr.quantities)
+    return Result(p.circuit, f, pr.quantities, device_table(p.circuit), p.notes + why, p.bias, warnings,
+                  rejection)
+
+
+def _rejection(c: Circuit, f: float, quantities: dict) -> dict:
+    """Supply rejection of every supply at f: its gain to v_out and PSRR against Av."""
+    from solver.analysis import scenarios
+    if not c.supplies:
+        return {}
+    gains = supply_gains(c, f)
+    return supply_rejection(gains, quantities["Av"], {n: scenarios.supply_unit(c, n) for n in gains})

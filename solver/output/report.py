@@ -18,6 +18,8 @@ CAUTION = ("Small-signal results are linear estimates around one operating point
 
 def fmt_quantity(name: str, z: complex, unit: str) -> str:
     u = UNIT_TEXT.get(unit, unit)
+    if unit == "dB":  # a rejection ratio (CMRR): its real part is already in dB
+        return decibel_text(z.real)
     if cmath.isinf(z) or cmath.isnan(z):
         return eng(z.real, u)
     real = abs(z.imag) <= 1e-6 * abs(z)
@@ -28,6 +30,28 @@ def fmt_quantity(name: str, z: complex, unit: str) -> str:
     if unit in ("V/V", "A/A") and z != 0:
         text += f"   {20 * math.log10(abs(z)):.2f} dB"
     return text
+
+
+def decibel_text(db: float | None) -> str:
+    """A ratio in dB for the reports: infinite when the rejected gain is exactly 0."""
+    if db is None or math.isnan(db):
+        return "undefined"
+    if math.isinf(db):
+        return "infinite (the rejected gain is 0)" if db > 0 else "-infinite"
+    return f"{db:.2f} dB"
+
+
+def rejection_lines(rejection: dict) -> list[str]:
+    """The supply-rejection block of the solve report (PSRR = 20 log10 |Av / A_supply|)."""
+    if not rejection:
+        return []
+    out = ["", "supply rejection (gain from the supply to v_out, signal zeroed, load in place)"]
+    width = max(len(n) for n in rejection)
+    for name, r in rejection.items():
+        g = fmt_quantity(name, r["gain"], r["unit"]) if r["gain"] != 0 else "0 (no path to the output)"
+        psrr = "" if r["psrr_db"] is None else f"   PSRR {decibel_text(r['psrr_db'])}"
+        out.append(f"  {name:<{width}}  {g}{psrr}")
+    return out
 
 
 def safety_notes(c: Circuit) -> list[str]:
@@ -84,6 +108,7 @@ def solve_report(result, symbolic: dict | None = None) -> str:
         if symbolic and name in symbolic:
             line += f"\n        = {symbolic[name]}"
         out.append(line)
+    out.extend(rejection_lines(getattr(result, "supply_rejection", {})))
     notes = safety_notes(c)
     out.append("")
     out.extend(notes)
