@@ -9,10 +9,11 @@ The layers, in data-flow order: :mod:`solver.language.parse` (grammar -> stateme
 """
 __version__ = "0.1.0"
 __all__ = ["load", "loads", "solve", "Result", "InputError"]
+__all__ += ["headroom"]  # issue 18
 
 
 def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
-    if name in ("load", "loads", "solve", "Result"):
+    if name in ("load", "loads", "solve", "Result", "headroom"):
         from solver import api
         return getattr(api, name)
     if name == "InputError":

@@ -109,3 +109,50 @@ def _rejection(c: Circuit, f: float, quantities: dict) -> dict:
         return {}
     gains = supply_gains(c, f)
     return supply_rejection(gains, quantities["Av"], {n: scenarios.supply_unit(c, n) for n in gains})
+
+
+def headroom(circuit: Circuit | str | Path, at: float | None = None):
+    """Headroom of every transistor and the output swing from the DC operating point.
+
+    Returns a :class:`HeadroomResult`: the :class:`solver.analysis.headroom.Headroom`
+    (``.devices``, ``.swing``, ``.warnings``) with ``.to_dict()`` and ``.to_json()`` in the
+    JSON rule of every command; ``at`` is where the AC load is taken (default: the
+    analysis frequency of ``solve``).
+
+    Examples
+    --------
+    >>> import solver
+    >>> h = solver.headroom(solver.loads('''
+    ... supply VCC (vcc, gnd) 10 V
+    ... supply IB (vcc, b) 10 uA
+    ... npn Q1 (c, b, gnd) beta=100
+    ... resistor RC (vcc, c) 4k
+    ... '''))
+    >>> round(h.devices["Q1"].cutoff_v, 3), h.swing is None
+    (4.0, True)
+    """
+    from solver.analysis.headroom import headroom as _headroom, headroom_frequency
+    c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    with paused_gc():
+        p = pipeline.prepare(c, "bias")
+        f = float(at) if at is not None else headroom_frequency(p.circuit)[0]
+        h = _headroom(p.circuit, p.bias, f)
+    h.warnings[:0] = p.warnings
+    return HeadroomResult(h)
+
+
+class HeadroomResult:
+    """:func:`headroom`'s result: the analysis value, and its JSON form ("headroom", "swing")."""
+
+    def __init__(self, h):
+        self.value = h
+
+    def __getattr__(self, name):
+        return getattr(self.value, name)
+
+    def to_dict(self) -> dict:
+        return self.value.to_dict(_num)
+
+    def to_json(self) -> str:
+        import json
+        return json.dumps(self.to_dict(), allow_nan=False)

@@ -78,11 +78,13 @@ RATIOS = ("Gv", "Gvo", "Av", "Avo", "Ai")
 GAINS = ("Gv", "Gvo", "Av", "Avo", "Ai", "Zt", "Zto")
 #: the name of the test source at the output port (Rout)
 TEST = "{test}"
-#: every engine: a common-mode or supply read-out smaller than this times the solution's largest node voltage
-#: is the round-off of a cancellation (two matched halves), not a gain: it reads as exactly 0.
-#: Ten thousand times the double-precision epsilon leaves room for the conditioning of a
-#: typical small-signal system (common practice, no source).
-CANCELLED = 1e4 * 2.220446049250313e-16
+#: every engine: a common-mode or supply read-out smaller than this times the solution's largest
+#: node voltage is the round-off of a cancellation (two matched halves), not a gain: it reads as
+#: exactly 0, so a perfectly matched pair with an ideal tail has CMRR inf. A matched pair
+#: leaves about 1e-13 (a few hundred times the double-precision epsilon, amplified by the
+#: system's conditioning); 1e-11 leaves a margin of a hundred. A real mismatch gives a
+#: common-mode gain many decades above it (common practice, no source).
+CANCELLED = 1e-11
 #: the drive prefix of a supply's configuration ("supply:VCC")
 SUPPLY = "supply:"
 #: the Rout measurements, in the order they are tried: the first whose system is not singular

@@ -207,6 +207,13 @@ def rational_limit(expr, x, to: str):
     import sympy
     if x not in expr.free_symbols:
         return expr
+    in_db = _log_abs(expr, x)  # a dB quantity (CMRR, issue 18): the limit of the ratio inside
+    if in_db is not None:
+        k, inner = in_db
+        lim = rational_limit(inner, x, to)
+        if lim.has(sympy.oo, sympy.zoo, sympy.nan) or lim == 0:
+            return sympy.oo if lim != 0 else -sympy.oo
+        return k * sympy.log(sympy.Abs(lim))
     n, d = sympy.fraction(sympy.cancel(sympy.together(expr)))
     try:
         P, Q = sympy.Poly(n, x), sympy.Poly(d, x)
@@ -226,6 +233,19 @@ def rational_limit(expr, x, to: str):
     if lp > lq:
         return sympy.Integer(0)
     return sympy.cancel(P.coeff_monomial(x ** lp) / Q.coeff_monomial(x ** lq))
+
+
+def _log_abs(expr, x):
+    """(k, R) when expr = k * log(|R|) with k free of x (a ratio in dB), else None."""
+    import sympy
+    if not expr.is_Mul:
+        return None
+    logs = [f for f in expr.args if isinstance(f, sympy.log)]
+    if len(logs) != 1:
+        return None
+    k = expr / logs[0]
+    inner = logs[0].args[0]
+    return None if x in k.free_symbols else (k, inner.args[0] if isinstance(inner, sympy.Abs) else inner)
 
 
 def _degenerate(v) -> bool:

@@ -67,6 +67,17 @@ def bias_substitutions(c: Circuit) -> dict:
     return out
 
 
+def _in_decibels(q: str, ratio, pruned, P) -> Derived:
+    """A dB quantity (CMRR = 20*log10(abs(Avo/Acm))) around its derived ratio."""
+    import sympy
+    if ratio == sympy.oo:  # the rejected gain is identically 0
+        return Derived(q, ratio, P.plain(ratio), P.latex(ratio), P.sympy_text(ratio), {}, pruned)
+    symbols = P.sympy_names(P.expand_par(ratio) if ratio.has(P.Par()) else ratio)
+    return Derived(q, ratio, f"20*log10(abs({P.plain(ratio)}))",
+                   f"20\\log_{{10}}\\left|{P.latex(ratio)}\\right|",
+                   f"20*log(Abs({P.sympy_text(ratio)}), 10)", symbols, pruned)
+
+
 def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: float | None = None,
            frequency_hz: float = 0.0, expand_bias: bool = False) -> list[Derived]:
     """Derive ``quantities`` symbolically and format them.
@@ -102,12 +113,13 @@ def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: f
     out = []
     for q in quantities:
         sq = res[q]
+        in_db = hasattr(sq, "ratio_expr")  # CMRR: the ratio (Avo/Acm) is derived, then shown in dB
         pruned = None
         if dominant is not None and sq.num and sq.den:  # 0 and unbounded quantities have no terms to drop
             pruned = prune(sq.num, sq.den, sq.gens, values, dominant, 2j * math.pi * frequency_hz)
             e = to_sympy(pruned.num, pruned.den, sq.gens)
         else:
-            e = sq.expr()
+            e = sq.ratio_expr() if in_db else sq.expr()
         for name, to in limits:
             e = rational_limit(e, symbol(name), to)
         e = sympy.factor_terms(e) if e.is_Add else e
@@ -115,6 +127,9 @@ def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: f
         shown = tidy_numbers(shown)
         if expand_bias:
             shown = shown.xreplace(bias_substitutions(c))
+        if in_db:
+            out.append(_in_decibels(q, shown, pruned, P))
+            continue
         out.append(Derived(q, shown, P.plain(shown), P.latex(shown), P.sympy_text(shown),
                            P.sympy_names(P.expand_par(shown) if shown.has(P.Par()) else shown), pruned))
     return out

@@ -73,6 +73,46 @@ class SymbolicQuantity:
         return n / d
 
 
+class DecibelQuantity:
+    """A ratio of two rows in dB (CMRR = 20 log10 |Avo/Acm|): the exact ratio, and its dB form.
+
+    ``ratio`` is the :class:`SymbolicQuantity` of the ratio itself (Avo/Acm), whose
+    ``num``/``den``/``gens`` the dominant-term pruning reads; ``infinite`` is True when the
+    denominator row is identically zero (then so is no ratio: the dB value is +oo).
+    """
+
+    def __init__(self, name: str, ratio: SymbolicQuantity | None):
+        self.name = name
+        self.ratio = ratio
+        self.infinite = ratio is None
+
+    @property
+    def num(self) -> dict:
+        return {} if self.ratio is None else self.ratio.num
+
+    @property
+    def den(self) -> dict:
+        return {} if self.ratio is None else self.ratio.den
+
+    @property
+    def gens(self) -> list[str]:
+        return [S_NAME] if self.ratio is None else self.ratio.gens
+
+    def ratio_expr(self):
+        """The ratio (e.g. Avo/Acm) as a sympy expression; sympy.oo when infinite."""
+        import sympy
+        return sympy.oo if self.ratio is None else self.ratio.expr()
+
+    def expr(self):
+        """20*log10(|ratio|) as a sympy expression (sympy.oo when infinite)."""
+        import sympy
+        r = self.ratio_expr()
+        return r if r == sympy.oo else 20 * sympy.log(sympy.Abs(r), 10)
+
+    def value(self, values: dict, s: complex = 0j) -> complex:
+        return complex(math.inf if self.ratio is None else table.decibels(self.ratio.value(values, s), 1.0), 0.0)
+
+
 def circuit_symbols(c: Circuit) -> list[str]:
     """Every symbol of the small-signal circuit in stamping order (``RC``, ``Q1.gm``, ``VS.rs`` ...)."""
     seen: dict[str, None] = {}
@@ -206,6 +246,8 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
     for q in table.quantities(c):
         if which is not None and q not in which:
             continue
+        if q in table.DECIBELS:  # a ratio of two rows: each read as usual, then divided
+            continue
         m = table.chosen(c, q, lambda m: stamped(m).det == 0, base)  # singular for every value
         s = stamped(m)
         num = s.read(m.num)
@@ -214,6 +256,18 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
             result[q] = num / den
         else:
             result[q] = SymbolicQuantity(q, RationalFunction(num, den, ring).cancel(), kept)
+    for q, (a, b) in table.DECIBELS.items():
+        if q not in table.quantities(c) or (which is not None and q not in which):
+            continue
+        parts = symbolic_port_quantities(c, keep, numeric, (a, b), compact)
+        if compact:
+            import sympy
+            result[q] = 20 * sympy.log(sympy.Abs(parts[a] / parts[b]), 10) if parts[b] != 0 else sympy.oo
+            continue
+        ra, rb = parts[a].rf, parts[b].rf
+        ratio = None if rb.num == 0 else SymbolicQuantity(
+            f"{a}/{b}", RationalFunction(ra.num * rb.den, ra.den * rb.num, ra.ring).cancel(), kept)
+        result[q] = DecibelQuantity(q, ratio)
     return result
 
 
