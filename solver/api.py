@@ -98,6 +98,10 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
             raise p.fail(explain_singular(p.circuit, f, str(e))) from None
         warnings = p.warnings + conditioning(p.circuit, f)
         rejection = _rejection(p.circuit, f, pr.quantities)
+        from solver.analysis import scenarios
+        if scenarios.why_undefined(p.circuit, "Acm") is None and "Acm" not in pr.quantities:
+            why.append("Acm and CMRR are not given: the circuit with the signal applied common-mode is "
+                       "singular (a signal node held by a voltage source?)")
     return Result(p.circuit, f, pr.quantities, device_table(p.circuit), p.notes + why, p.bias, warnings,
                   rejection)
 

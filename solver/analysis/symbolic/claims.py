@@ -426,6 +426,10 @@ def check_claims(c: Circuit, frequency_hz: float) -> list[Verdict]:
         if why:
             raise error(cl.loc, f"claim on {cl.quantity}: {why}")
     nums = port_quantities(c, frequency_hz, which=wanted).quantities
+    for cl in c.claims:  # Acm, CMRR are left out when the common-mode drive is singular (issue 18)
+        if cl.quantity not in nums:
+            raise error(cl.loc, f"claim on {cl.quantity}: the circuit with the signal applied common-mode "
+                        "is singular")
     sym = symbolic_port_quantities(c, which=wanted)
     from solver.analysis.symbolic.ports import scenario_elements
     from solver.analysis.symbolic.printing import symbol_dims

@@ -112,6 +112,8 @@ def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: f
     res = symbolic_port_quantities(c, keep, numeric, which=quantities)
     out = []
     for q in quantities:
+        if q not in res:  # Acm, CMRR when the common-mode drive makes the circuit singular
+            continue
         sq = res[q]
         in_db = hasattr(sq, "ratio_expr")  # CMRR: the ratio (Avo/Acm) is derived, then shown in dB
         pruned = None

@@ -250,6 +250,8 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
             continue
         m = table.chosen(c, q, lambda m: stamped(m).det == 0, base)  # singular for every value
         s = stamped(m)
+        if q in table.DIFFERENTIAL and s.det == 0:  # no common-mode drive (as the numeric engine)
+            continue
         num = s.read(m.num)
         den = s.read(m.den) if m.den is not None else s.det
         if domain is not None:
@@ -260,6 +262,8 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
         if q not in table.quantities(c) or (which is not None and q not in which):
             continue
         parts = symbolic_port_quantities(c, keep, numeric, (a, b), compact)
+        if b not in parts:
+            continue
         if compact:
             import sympy
             result[q] = 20 * sympy.log(sympy.Abs(parts[a] / parts[b]), 10) if parts[b] != 0 else sympy.oo

@@ -35,7 +35,8 @@ def _names(values) -> list[str]:
 def add_arguments(p) -> None:
     p.add_argument("file", help="netlist file (.pw)")
     p.add_argument("quantity", choices=QUANTITY_CHOICES, metavar="QUANTITY",
-                   help="one of Rin Rout Avo Av Gv Gvo Ai (Zt Zto for a current signal), or all")
+                   help="one of Rin Rout Avo Av Gv Gvo Ai (Zt Zto for a current signal; Acm CMRR "
+                   "for a differential signal), or all")
     p.add_argument("--keep", action="append", metavar="NAMES",
                    help="comma-separated symbols to keep symbolic (the others take their values)")
     p.add_argument("--numeric", action="append", metavar="NAMES",
@@ -87,6 +88,9 @@ def run(args) -> int:
     tol = tolerance(args.dominant) if args.dominant is not None else None
     f, _ = analysis_frequency(c, at)
     results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias)
+    if not results:
+        raise error(None, f"{args.quantity} is not defined here: the circuit with the signal applied "
+                    "common-mode is singular")
     if args.json:
         items = []
         for d in results:

@@ -33,7 +33,7 @@ def add_arguments(p) -> None:
     g.add_argument("--points", type=int, metavar="N", help="number of log-spaced points in all")
     g.add_argument("--per-decade", type=int, metavar="N", help="points per decade (default 20)")
     p.add_argument("--quantity", choices=QUANTITY_CHOICES, metavar="Q",
-                   help="Gv (default; Zt for a current signal), Gvo, Av, Avo, Ai, Rin, Rout, Zt, Zto")
+                   help="Gv (default; Zt for a current signal), Gvo, Av, Avo, Ai, Rin, Rout, Zt, Zto, Acm")
     p.add_argument("--supply", metavar="NAME", help="sweep the gain from this supply to the output and its "
                    "rejection PSRR = 20 log10 |Av/A_supply| (instead of a port quantity)")
     p.add_argument("--plot", metavar="FILE", help="write a Bode plot (.png or .svg)")
