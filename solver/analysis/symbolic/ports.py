@@ -86,6 +86,16 @@ class DecibelQuantity:
         self.ratio = ratio
         self.infinite = ratio is None
 
+    def __getattr__(self, attr):
+        # everything else a SymbolicQuantity offers (rf, ring_terms, ...) is the ratio's
+        if attr.startswith("__") or self.__dict__.get("ratio") is None:
+            raise AttributeError(attr)
+        return getattr(self.ratio, attr)
+
+    @property
+    def nterms(self) -> int:
+        return 0 if self.ratio is None else self.ratio.nterms
+
     @property
     def num(self) -> dict:
         return {} if self.ratio is None else self.ratio.num
