@@ -13,9 +13,9 @@ Outside references, each beside its check:
 """
 from __future__ import annotations
 
-import cmath
 import json
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -342,3 +342,36 @@ def test_pnp_and_mosfet_margins_are_magnitudes():
     # square law: ID = k/2 (VGS - Vth)^2 = 1 mA, VDS = 10 - 5 = 5 V, Vov = 1 V (Sedra & Smith 5.2, from memory)
     d = m.devices["M1"]
     assert d.saturation_v == pytest.approx(5 - 1, rel=1e-9) and d.cutoff_v == pytest.approx(5.0, rel=1e-9)
+
+
+# --- where the quantities are not defined -------------------------------------------------------
+def test_acm_is_refused_where_undefined(cli, netlist):
+    single = netlist("signal VS (b, gnd) 1 mV\nnpn Q1 (c, b, gnd) ic=1 mA\nresistor RC (c, gnd) 1k\n"
+                     "output (c, gnd)\n", "single.pw")
+    r = cli("derive", single, "Acm")
+    assert r.returncode == 2 and "differential signal" in r.stderr
+    r = cli("sweep", single, "--from", "1Hz", "--to", "1kHz", "--quantity", "CMRR")
+    assert r.returncode == 2
+    # a signal node held by a supply: the common-mode drive fights the supply's short, so Acm and
+    # CMRR are left out of solve (with a note) and refused by derive and by a claim
+    held = netlist("supply VCC (vcc, gnd) 9 V\nsignal VS (a, vcc) 1 mV\nresistor R1 (a, gnd) 1k\n"
+                   "resistor R2 (a, b) 1k\nresistor R3 (b, gnd) 1k\noutput (b, gnd)\n", "held.pw")
+    res = solver.solve(solver.load(held))
+    assert "Acm" not in res.quantities and any("common-mode is singular" in n for n in res.notes)
+    assert res.quantities["Av"].real == pytest.approx(0.5)  # R3/(R2 + R3)
+    r = cli("derive", held, "Acm")
+    assert r.returncode == 2 and "common-mode is singular" in r.stderr
+    held.write_text(held.read_text() + "claim Acm ~ 0 within 1%\n")
+    r = cli("check", held)
+    assert r.returncode == 2 and "held.pw:7:7: error: claim on Acm" in r.stderr
+
+
+def test_solve_report_shows_cmrr_psrr_and_headroom(cli):
+    demo = str(Path(__file__).resolve().parents[1] / "circuits" / "loadcell_diffpair.pw")
+    r = cli("solve", demo)
+    assert r.returncode == 0, r.stderr
+    for text in ("Acm ", "CMRR ", "supply rejection", "PSRR", "headroom", "output swing at cb"):
+        assert text in r.stdout
+    obj = json.loads(cli("solve", demo, "--json").stdout)
+    assert set(obj["bias"]["swing"]) >= {"node", "up_v", "down_v"}
+    assert obj["bias"]["headroom"]["QA"]["vsat_source"] == "ebers-moll"
