@@ -62,7 +62,8 @@ def main():
                 line += f"  {t}: {min(v):.3f} / {statistics.median(v):.3f}"
         if base and (("baseline", name) in times):
             d = statistics.median(times[("this", name)]) - statistics.median(times[("baseline", name)])
-            line += f"  (median +{d * 1000:.0f} ms)"
+            b = min(times[("this", name)]) - min(times[("baseline", name)])
+            line += f"  (best {b * 1000:+.0f} ms, median {d * 1000:+.0f} ms)"
         print(line)
 
 
