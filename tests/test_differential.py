@@ -375,3 +375,21 @@ def test_solve_report_shows_cmrr_psrr_and_headroom(cli):
     obj = json.loads(cli("solve", demo, "--json").stdout)
     assert set(obj["bias"]["swing"]) >= {"node", "up_v", "down_v"}
     assert obj["bias"]["headroom"]["QA"]["vsat_source"] == "ebers-moll"
+
+
+def test_symbolic_supply_gain_is_the_millman_form(cli, netlist):
+    # the symbolic engine reads the supply's configuration of the table: the divider's supply gain
+    # is Y1/(Y1 + Y2 + Y3) identically (Millman's theorem, Horowitz & Hill 3rd ed., 1.2, from memory)
+    import sympy
+    from solver.analysis.symbolic.ports import symbolic_port_quantities
+    from solver.engine.symbolic.determinants import symbol
+    text = DIVIDER.format(rs=1e3, r1=47e3, r2=10e3, r3=4.7e3, c2=100e-9, rl=22e3)
+    sq = symbolic_port_quantities(solver.loads(text), which=["supply:VCC"])["supply:VCC"]
+    r1, r2, r3, c2, rl, rs, s = (symbol(n) for n in ("R1", "R2", "R3", "C2", "RL", "VS.rs", "s"))
+    y1 = 1 / r1
+    millman = y1 / (y1 + 1 / r2 + s * c2 + 1 / rl + 1 / (rs + r3))
+    assert sympy.simplify(sq.expr() - millman) == 0
+    out = cli("derive", netlist(text), "--supply", "VCC", "--json")
+    assert out.returncode == 0, out.stderr
+    obj = json.loads(out.stdout)
+    assert obj["supply"] == "VCC" and obj["quantity"] == "supply:VCC"

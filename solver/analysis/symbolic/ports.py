@@ -226,6 +226,8 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
         ``keep`` (when given) lists the symbols that stay symbolic; ``numeric``
         names symbols to replace by their netlist values.
     which : iterable of quantity names or None (all)
+        ``"supply:NAME"`` adds the gain from supply NAME to v_out (the signal zeroed, the
+        load in place), read from the scenario table's configuration for that supply.
     compact : bool
         Return nested, unexpanded sympy expressions instead of expanded ratios.
 
@@ -268,6 +270,14 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
             result[q] = num / den
         else:
             result[q] = SymbolicQuantity(q, RationalFunction(num, den, ring).cancel(), kept)
+    for q in which or ():  # a supply's gain to v_out ("supply:VCC"): the table's configuration for it
+        if not q.startswith(table.SUPPLY):
+            continue
+        m = table.supply_measurement(c, q[len(table.SUPPLY):], base)
+        st = stamped(m)
+        num, den = st.read(m.num), st.det
+        result[q] = num / den if domain is not None else \
+            SymbolicQuantity(q, RationalFunction(num, den, ring).cancel(), kept)
     for q, (a, b) in table.DECIBELS.items():
         if q not in table.quantities(c) or (which is not None and q not in which):
             continue

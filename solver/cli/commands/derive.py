@@ -14,6 +14,7 @@ examples:
   portwise derive circuits/mic_preamp.pw Av --limit Q1.ro=oo
   portwise derive circuits/mic_preamp.pw all --keep RC,RL,Q1.gm --latex
   portwise derive circuits/mic_preamp.pw Gv --dominant 5% --json
+  portwise derive circuits/loadcell_diffpair.pw --supply VCC --keep RCB,RT,R1,R2
 
 Symbols not kept take their netlist values. --dominant drops, coefficient by
 coefficient of s, the terms whose summed size at the nominal values is within the
@@ -34,9 +35,11 @@ def _names(values) -> list[str]:
 
 def add_arguments(p) -> None:
     p.add_argument("file", help="netlist file (.pw)")
-    p.add_argument("quantity", choices=QUANTITY_CHOICES, metavar="QUANTITY",
+    p.add_argument("quantity", choices=QUANTITY_CHOICES, metavar="QUANTITY", nargs="?",
                    help="one of Rin Rout Avo Av Gv Gvo Ai (Zt Zto for a current signal; Acm CMRR "
                    "for a differential signal), or all")
+    p.add_argument("--supply", metavar="NAME", help="derive the gain from this supply to the output (signal "
+                   "zeroed, load in place) instead of a port quantity")
     p.add_argument("--keep", action="append", metavar="NAMES",
                    help="comma-separated symbols to keep symbolic (the others take their values)")
     p.add_argument("--numeric", action="append", metavar="NAMES",
@@ -74,7 +77,15 @@ def run(args) -> int:
     p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac")  # the same input checks as solve
     c = p.circuit
     print_warnings(p.warnings)
-    if args.quantity == "all":
+    if (args.quantity is None) == (args.supply is None):
+        raise error(None, "give a QUANTITY or --supply NAME (one of the two)")
+    if args.supply is not None:
+        from solver.analysis.scenarios import SUPPLY, supply_names
+        if args.supply not in supply_names(c):
+            raise error(None, f"--supply: no supply '{args.supply}' (supplies: "
+                        f"{', '.join(supply_names(c)) or 'none'})")
+        qs = [SUPPLY + args.supply]
+    elif args.quantity == "all":
         qs = scenarios.quantities(c)
     else:
         why = scenarios.why_undefined(c, args.quantity)
@@ -94,7 +105,8 @@ def run(args) -> int:
     if args.json:
         items = []
         for d in results:
-            item = {"quantity": d.quantity, "expression": d.plain, "latex": d.latex, "sympy": d.sympy,
+            item = {"quantity": d.quantity, "expression": d.plain,
+                    **({"supply": args.supply} if args.supply is not None else {}), "latex": d.latex, "sympy": d.sympy,
                     "symbols": d.symbols}
             if d.pruned is not None:
                 item["dominant"] = {"tolerance": tol, "frequency_hz": f, "terms_dropped": d.pruned.dropped,
@@ -107,7 +119,8 @@ def run(args) -> int:
         return 0
     for d in results:
         text = d.latex if args.latex else d.plain
-        print(f"{d.quantity} = {text}")
+        label = f"A_{args.supply}" if args.supply is not None else d.quantity
+        print(f"{label} = {text}")
         if d.pruned is not None:
             print(f"  dominant terms ({tol:.3g} tolerance): dropped {d.pruned.dropped}, kept {d.pruned.kept}; "
                   f"error at {f:g} Hz {d.pruned.error_at_f:.3g} (bound {d.pruned.bound_at_f:.3g})")
