@@ -9,14 +9,18 @@ The layers, in data-flow order: :mod:`solver.language.parse` (grammar -> stateme
 """
 __version__ = "0.1.0"
 __all__ = ["load", "loads", "solve", "Result", "InputError"]
+__all__ += ["loop"]  # feedback: return ratio, asymptotic gain, Blackman, margins
 __all__ += ["headroom"]  # issue 18
 
 
 def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
-    if name in ("load", "loads", "solve", "Result", "headroom"):
+    if name in ("load", "loads", "solve", "Result", "headroom", "loop"):
         from solver import api
         return getattr(api, name)
     if name == "InputError":
         from solver.diagnostics import InputError
         return InputError
+    if name == "loop":
+        from solver import api
+        return api.loop
     raise AttributeError(name)

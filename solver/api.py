@@ -160,3 +160,59 @@ class HeadroomResult:
     def to_json(self) -> str:
         import json
         return json.dumps(self.to_dict(), allow_nan=False)
+
+
+# --- feedback: portwise loop (issue 15) ------------------------------------------------------------
+def loop(circuit: Circuit | str | Path, around: str | None = None, at: float | None = None,
+         f_from: float | None = None, f_to: float | None = None, points: int | None = None,
+         break_node: str | None = None, toward: list[str] | None = None, force: bool = False):
+    """The feedback loop around a controlled source (``around``) or at a node (``break_node``).
+
+    One frequency (``at``, default as :func:`solve`), or a log sweep ``f_from`` .. ``f_to``
+    (``points``, default 20 per decade) with the crossover, phase and gain margins.
+    Returns a :class:`solver.output.loopreport.LoopResult` (``.to_dict()``, ``.to_json()``,
+    ``.text()``, ``.warnings``). See :mod:`solver.analysis.loop`.
+
+    Examples
+    --------
+    >>> import solver
+    >>> c = solver.loads('''
+    ... signal VS (p, gnd) 1 V
+    ... opamp U1 (out, p, fb) gain=1000
+    ... resistor R1 (fb, gnd) 1k
+    ... resistor R2 (out, fb) 9k
+    ... output (out, gnd)
+    ... ''')
+    >>> r = solver.loop(c, around="U1")
+    >>> round(r.to_dict()["T"]["re"], 6), round(r.to_dict()["G_inf"]["re"], 6)
+    (100.0, 10.0)
+    """
+    import numpy as np
+
+    from solver.analysis import loop as L
+    from solver.analysis.frequency import frequencies
+    from solver.diagnostics import error
+    from solver.output.loopreport import LoopResult, warnings_for
+    if (around is None) == (break_node is None):
+        raise error(None, "give one of --around NAME or --break NODE")
+    c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    sweep = f_from is not None or f_to is not None
+    with paused_gc():
+        p = pipeline.prepare(c, "ports", "dc" if not sweep and at is not None and float(at) == 0 else "ac", force)
+        notes = list(p.notes)
+        if sweep:
+            if f_from is None or f_to is None or not (0 < f_from < f_to):
+                raise error(None, "a sweep needs 0 < --from < --to")
+            freqs = frequencies(f_from, f_to, points)
+        else:
+            f, why = analysis_frequency(p.circuit, at)
+            notes += why
+            freqs = np.array([f])
+        try:
+            if around is not None:
+                a = L.analyse_loop(p.circuit, around, freqs, sweep)
+            else:
+                a = L.analyse_break(p.circuit, break_node, toward, freqs, sweep)
+        except L.LoopError as e:
+            raise p.fail([Diagnostic("error", None, str(e))]) from None
+    return LoopResult(p.circuit, a, sweep, notes, p.warnings + warnings_for(a))

@@ -13,7 +13,8 @@ import sys
 
 from solver.diagnostics import InputError
 
-COMMANDS = ("solve", "derive", "check", "bias", "sweep", "twoport")
+COMMANDS = ("solve", "derive", "check", "bias", "sweep", "twoport",
+            "loop")
 
 EPILOG = """\
 examples:

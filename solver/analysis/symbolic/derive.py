@@ -79,7 +79,7 @@ def _in_decibels(q: str, ratio, pruned, P) -> Derived:
 
 
 def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: float | None = None,
-           frequency_hz: float = 0.0, expand_bias: bool = False) -> list[Derived]:
+           frequency_hz: float = 0.0, expand_bias: bool = False, around: str | None = None) -> list[Derived]:
     """Derive ``quantities`` symbolically and format them.
 
     Parameters
@@ -94,6 +94,8 @@ def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: f
         Where the dominant-term error is reported.
     expand_bias : bool
         Rewrite bias-form devices' symbols in ic, beta, va, V_T (see :func:`bias_substitutions`).
+    around : str, optional
+        The controlled source of the feedback quantities T, Ginf, G0 (:mod:`solver.analysis.symbolic.loop`).
 
     Examples
     --------
@@ -109,7 +111,11 @@ def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: f
     from solver.analysis.symbolic.ports import scenario_elements, symbol_values, symbolic_port_quantities
     dims = P.symbol_dims(scenario_elements(c))
     values = symbol_values(c)
-    res = symbolic_port_quantities(c, keep, numeric, which=quantities)
+    from solver.analysis.symbolic.loop import LOOP_QUANTITIES, symbolic_loop_quantities
+    loop_qs = [q for q in quantities if q in LOOP_QUANTITIES]
+    res = symbolic_port_quantities(c, keep, numeric, which=[q for q in quantities if q not in loop_qs])
+    if loop_qs:  # feedback around one source: T, Ginf, G0
+        res.update(symbolic_loop_quantities(c, around, keep, numeric, loop_qs))
     out = []
     for q in quantities:
         if q not in res:  # Acm, CMRR when the common-mode drive makes the circuit singular

@@ -24,6 +24,8 @@ Small-signal results are linear estimates, not a safety assessment."""
 from solver.circuit.model import PORT_QUANTITIES
 
 QUANTITY_CHOICES = PORT_QUANTITIES + ("all",)
+LOOP_CHOICES = ("T", "Ginf", "G0")  # feedback around --around NAME (solver.analysis.symbolic.loop)
+QUANTITY_CHOICES += LOOP_CHOICES
 
 
 def _names(values) -> list[str]:
@@ -52,6 +54,8 @@ def add_arguments(p) -> None:
                    help="write bias-form devices' gm, rpi, ro in terms of ic, beta, va and V_T")
     p.add_argument("--latex", action="store_true", help="print LaTeX (\\parallel for ||)")
     p.add_argument("--json", action="store_true", help="print JSON")
+    p.add_argument("--around", metavar="NAME",
+                   help="for T, Ginf, G0: the loop's controlled source (Q1, U1, G1), as portwise loop")
 
 
 def tolerance(text: str) -> float:
@@ -80,11 +84,19 @@ def run(args) -> int:
     if (args.quantity is None) == (args.supply is None):
         raise error(None, "give a QUANTITY or --supply NAME (one of the two)")
     if args.supply is not None:
+        if args.around:
+            raise error(None, "--around goes with a loop quantity, not with --supply")
         from solver.analysis.scenarios import SUPPLY, supply_names
         if args.supply not in supply_names(c):
             raise error(None, f"--supply: no supply '{args.supply}' (supplies: "
                         f"{', '.join(supply_names(c)) or 'none'})")
         qs = [SUPPLY + args.supply]
+    elif args.quantity in LOOP_CHOICES:
+        if not args.around:
+            raise error(None, f"{args.quantity} needs --around NAME (the controlled source of the loop)")
+        qs = [args.quantity]
+    elif args.around:
+        raise error(None, f"--around goes with {', '.join(LOOP_CHOICES)}, not {args.quantity}")
     elif args.quantity == "all":
         qs = scenarios.quantities(c)
     else:
@@ -98,7 +110,7 @@ def run(args) -> int:
     numeric = _names(args.numeric)
     tol = tolerance(args.dominant) if args.dominant is not None else None
     f, _ = analysis_frequency(c, at)
-    results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias)
+    results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias, around=args.around)
     if not results:
         raise error(None, f"{args.quantity} is not defined here: the circuit with the signal applied "
                     "common-mode is singular")
