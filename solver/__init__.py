@@ -10,11 +10,12 @@ The layers, in data-flow order: :mod:`solver.language.parse` (grammar -> stateme
 __version__ = "0.1.0"
 __all__ = ["load", "loads", "solve", "Result", "InputError"]
 __all__ += ["loop"]  # feedback: return ratio, asymptotic gain, Blackman, margins
-__all__ += ["headroom"]  # issue 18
+__all__ += ["sensitivity", "spread", "tune"]  # tolerances, Monte Carlo, part values
+__all__ += ["headroom"]  # issue 18: headroom and output swing from the bias point
 
 
 def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
-    if name in ("load", "loads", "solve", "Result", "headroom", "loop"):
+    if name in ("load", "loads", "solve", "Result", "sensitivity", "spread", "tune", "headroom", "loop"):
         from solver import api
         return getattr(api, name)
     if name == "InputError":

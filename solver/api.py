@@ -162,6 +162,85 @@ class HeadroomResult:
         return json.dumps(self.to_dict(), allow_nan=False)
 
 
+# --- tolerances, Monte Carlo and part values (issue 14) ------------------------------------------
+def _circuit(circuit) -> Circuit:
+    return circuit if isinstance(circuit, Circuit) else load(circuit)
+
+
+class _JSON:
+    """.to_dict() and .to_json() of an analysis result, by the output layer's JSON rule."""
+
+    _json = None
+
+    def to_dict(self) -> dict:
+        return self._json(self)
+
+    def to_json(self) -> str:
+        import json
+        return json.dumps(self.to_dict(), indent=2, allow_nan=False)
+
+
+def _as(cls, result):
+    from dataclasses import fields
+    return cls(**{f.name: getattr(result, f.name) for f in fields(result)})
+
+
+def _result_classes():
+    from solver.analysis.sensitivity import SensitivityResult as _Sens
+    from solver.analysis.spread import SpreadResult as _Spread
+    from solver.analysis.tune import TuneResult as _Tune
+    from solver.output import variation as out
+    return {
+        "sensitivity": type("SensitivityResult", (_JSON, _Sens), {"_json": staticmethod(out.sensitivity_json)}),
+        "spread": type("SpreadResult", (_JSON, _Spread), {"_json": staticmethod(out.spread_json)}),
+        "tune": type("TuneResult", (_JSON, _Tune), {"_json": staticmethod(out.tune_json)}),
+    }
+
+
+_CLASSES: dict = {}
+
+
+def _wrap(kind, result):
+    if not _CLASSES:
+        _CLASSES.update(_result_classes())
+    return _as(_CLASSES[kind], result)
+
+
+def sensitivity(circuit: Circuit | str | Path, quantities=None, at: float | None = None, force: bool = False):
+    """Normalised sensitivities (x/Q)·dQ/dx of port quantities, ranked (see solver.analysis.sensitivity).
+
+    Returns a :class:`solver.analysis.sensitivity.SensitivityResult` (``.to_dict()``,
+    ``.to_json()``, ``.warnings``).
+    """
+    from solver.analysis.sensitivity import sensitivity as run
+    with paused_gc():
+        return _wrap("sensitivity", run(_circuit(circuit), quantities, at, force))
+
+
+def spread(circuit: Circuit | str | Path, samples: int = 1000, seed: int | None = None, at: float | None = None,
+           worst: bool = False, force: bool = False):
+    """Monte Carlo over the netlist's ``spread`` lines (see solver.analysis.spread).
+
+    Returns a :class:`solver.analysis.spread.SpreadResult` (``.to_dict()``, ``.to_json()``,
+    ``.warnings``).
+    """
+    from solver.analysis.spread import spread as run
+    with paused_gc():
+        return _wrap("spread", run(_circuit(circuit), samples, seed, at, worst, force))
+
+
+def tune(circuit: Circuit | str | Path, quantity: str, target: float, vary: str, series: str | None = None,
+         at: float | None = None, force: bool = False):
+    """The value of ``vary`` that makes ``quantity`` reach ``target`` (see solver.analysis.tune).
+
+    Returns a :class:`solver.analysis.tune.TuneResult`; raises
+    :class:`solver.analysis.tune.NoSolution` when no value in range reaches the target.
+    """
+    from solver.analysis.tune import tune as run
+    with paused_gc():
+        return _wrap("tune", run(_circuit(circuit), quantity, target, vary, series, at, force))
+
+
 # --- feedback: portwise loop (issue 15) ------------------------------------------------------------
 def loop(circuit: Circuit | str | Path, around: str | None = None, at: float | None = None,
          f_from: float | None = None, f_to: float | None = None, points: int | None = None,

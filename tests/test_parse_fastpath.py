@@ -161,6 +161,13 @@ LINES = [
     "\f",
     "resistor R{i} (a, b) | 2",
     "output a",
+    "spread R{i} 5%",
+    "spread Q{i}.beta 100 .. 300, dist=normal",
+    "spread M{i}.vth 0.9 V .. 1.1 V",
+    "spec Av {k} .. 35",
+    "spec Gv 20 dB .. inf",
+    "spread R{i} 1..2",
+    "spec Av 1 .. 2 dB .. 3",
 ]
 
 

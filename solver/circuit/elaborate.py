@@ -18,7 +18,9 @@ from solver.circuit.devices import BJT_QUANTITIES, DIODE_QUANTITIES, MOS_QUANTIT
 from solver.diagnostics import Diagnostics, InputError, Loc, error
 from solver.circuit.elements import CCCS, CCVS, VCCS, VCVS, Capacitor, Inductor, Nullor, Resistor, VoltageSource
 from solver.circuit.model import PORT_QUANTITIES, Circuit, ClaimSpec, Device, Load, Signal, Supply
-from solver.language.statements import BlockStart, Claim, ElementStmt, End, Ground, Let, Netlist, Output, Param, Title, Use
+from solver.language.statements import (BlockStart, Claim, ElementStmt, End, Ground, Let, Netlist, Output, Param,
+                                       Spread, Title, Use)
+from solver.language.statements import Spec as SpecStmt
 
 MAX_NESTING = 32
 MAX_ELEMENTS = 2_000_000
@@ -383,6 +385,7 @@ class _Elaborator:
         self.n_elements = 0
         self.scopes: list[tuple[str, Scope]] = []  # (block name, instance scope)
         self._pending: list = []  # (block body, instance scope), filled while declaring
+        self._later: list = []  # spread and spec lines, read once every value is known
 
     # structure -----------------------------------------------------------------
     def _split_blocks(self) -> list:
@@ -422,6 +425,7 @@ class _Elaborator:
         self._declare(top_stmts, top, depth=0)
         self._build(top_stmts, top)
         self._finish(top)
+        self._spreads()
         self.diags.check()
         self.circuit.warnings = self.diags.warnings
         self.circuit.resolver = self.res
@@ -524,6 +528,12 @@ class _Elaborator:
                     self.diags.error(s.loc, "claims belong at the top level")
                 else:
                     self._guard(self._claim, s, scope)
+            elif isinstance(s, (Spread, SpecStmt)):
+                word = "spread" if isinstance(s, Spread) else "spec"
+                if not top:
+                    self.diags.error(s.loc, f"'{word}' lines belong at the top level")
+                else:
+                    self._later.append((s, scope))
             elif isinstance(s, Let):
                 entry = scope.names.get(s.name)
                 if entry is not None and entry.loc == s.loc:
@@ -747,6 +757,26 @@ class _Elaborator:
                 self.diags.error(c.signal.loc if what == "input" else (c.output_loc or c.load.loc),
                                  f"the {what} port's two nodes are the same")
         self._unused(top)
+
+    def _spreads(self):
+        """The spread and spec lines (solver.circuit.spreads), after every value is known."""
+        from solver.circuit.spreads import spec_line, spread_spec
+        seen: dict[tuple, int] = {}
+        for s, scope in self._later:
+            if isinstance(s, SpecStmt):
+                got = self._guard(spec_line, self.res, s, scope, self.nl.source)
+                if got is not None:
+                    self.circuit.specs.append(got)
+                continue
+            got = self._guard(spread_spec, self.res, s, scope, SPECS, self.nl.source)
+            if got is None:
+                continue
+            key = (got.target, got.key)
+            if key in seen:
+                self.diags.error(s.loc, f"{got.name} has a spread already (line {seen[key]})")
+                continue
+            seen[key] = s.loc.line
+            self.circuit.spreads.append(got)
 
     def _unused(self, top: Scope):
         for name, b in self.blocks.items():

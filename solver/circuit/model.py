@@ -89,6 +89,45 @@ class ClaimSpec:
 
 
 @dataclass
+class SpreadSpec:
+    """A ``spread`` line: one value that varies over the Monte Carlo samples.
+
+    kind     -- "element" (a resistor, capacitor, controlled source...), "supply", "load",
+                "rs" (the signal's source resistance), "device" (a device parameter) or "let"
+                (a let or block parameter: every value that uses it moves with it)
+    target   -- the full name of the element, supply, load, signal, device or let
+    key      -- the device parameter (beta, va, vth...) for kind "device", else None
+    lo, hi   -- the range; for dist "normal" the mean is the middle and (hi - lo)/6 is sigma
+                (the range is +-3 sigma, common practice, no source)
+    """
+
+    name: str
+    kind: str
+    target: str
+    key: str | None
+    nominal: float
+    lo: float
+    hi: float
+    dist: str
+    text: str
+    loc: Loc
+    line: int
+
+
+@dataclass
+class SpecLine:
+    """A ``spec`` line: the magnitude of ``quantity`` between lo and hi (in its own unit)."""
+
+    quantity: str
+    lo: float
+    hi: float
+    text: str
+    loc: Loc
+    line: int
+    db: bool = False
+
+
+@dataclass
 class Circuit:
     title: str
     file: str
@@ -102,6 +141,9 @@ class Circuit:
     output_loc: Loc | None = None
     ground: set[str] = field(default_factory=lambda: {"gnd", "0"})
     claims: list[ClaimSpec] = field(default_factory=list)
+    #: ``spread`` and ``spec`` lines (Monte Carlo, tolerances: solver.analysis.variation)
+    spreads: list[SpreadSpec] = field(default_factory=list)
+    specs: list[SpecLine] = field(default_factory=list)
     #: symbol name -> numeric value, for the symbolic engine and claims
     values: dict[str, float] = field(default_factory=dict)
     warnings: list[Diagnostic] = field(default_factory=list)

@@ -14,7 +14,7 @@ import sys
 from solver.diagnostics import InputError
 
 COMMANDS = ("solve", "derive", "check", "bias", "sweep", "twoport",
-            "loop")
+            "loop", "sensitivity", "spread", "tune")
 
 EPILOG = """\
 examples:

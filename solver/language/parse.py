@@ -26,8 +26,8 @@ from pathlib import Path
 from solver.language import expr as ex
 from solver.bulk import paused_gc
 from solver.diagnostics import MAX_REPORTED, Diagnostics, InputError, Loc, error
-from solver.language.statements import (BlockStart, Claim, ElementStmt, End, Ground, Let, Netlist, Node, Output,
-                      Param, Title, Use)
+from solver.language.statements import (BlockStart, Bound, Claim, ElementStmt, End, Ground, Let, Netlist, Node,
+                                       Output, Param, Spec, Spread, Title, Use)
 from solver.language.units import UnitError, parse_quantity
 
 MAX_FILE_BYTES = 20_000_000
@@ -63,12 +63,12 @@ STRING = r'"(?:[^"\\\n]|\\.)*"'
 BLANKS = "[ \t\f]+"  # the grammar's first %ignore
 OPERATORS = {"ADD_OP": ("+", "-"), "PAR_OP": ("||",), "MUL_OP": ("*", "/"), "POW_OP": ("^",),
              "CLAIM_OP": ("=", "~")}
-PUNCTUATION = ("(", ")", ",", "=", ".")
+PUNCTUATION = ("(", ")", ",", "=", ".", "..")
 
 # Statement shapes: (rule, keywords, parts after the keyword). Parts: NAME a name; NODES
 # "(" node ("," node)* ")"; NODE one node; REF NAME ("." NAME)*; EXPR an expression;
 # "=" that character; CLAIM_OP "=" or "~"; TAIL ("," param)*; PARAMS? [param ("," param)*];
-# WITHIN? ["within" expr]. The rules are those of grammar/portwise.lark of the same name. A title
+# WITHIN? ["within" expr]; RANGE? [".." expr]; ".." that token; BOUND expr [NAME]. The rules are those of grammar/portwise.lark of the same name. A title
 # line is matched whole by _TITLE (its string may hold "#"); the other rows are walked by _Fast.
 STATEMENTS = (
     ("valued", ("resistor", "capacitor", "inductor", "supply", "signal", "load"),
@@ -84,6 +84,8 @@ STATEMENTS = (
     ("end", ("end",), ()),
     ("use", ("use",), ("NAME", "NAME", "NODES", "PARAMS?")),
     ("claim", ("claim",), ("NAME", "CLAIM_OP", "EXPR", "WITHIN?")),
+    ("spread", ("spread",), ("REF", "EXPR", "RANGE?", "TAIL")),
+    ("spec", ("spec",), ("NAME", "BOUND", "..", "BOUND")),
 )
 _KEYWORDS = {kw: (rule, parts) for rule, kws, parts in STATEMENTS for kw in kws if rule != "title"}
 
@@ -206,6 +208,22 @@ class _Fast:
                     raise _Decline
                 vals.append(tok)
                 i += 1
+            elif part == "RANGE?":
+                hi = None
+                if toks[i][0] == "..":
+                    hi, i = self.expr(i + 1, 1)
+                vals.append(hi)
+            elif part == "..":
+                if toks[i][0] != "..":
+                    raise _Decline
+                i += 1
+            elif part == "BOUND":
+                value, i = self.expr(i, 1)
+                unit = None
+                if toks[i][0] == "n":
+                    unit = toks[i]
+                    i += 1
+                vals.append(Bound(value, unit and unit[1], unit and self.loc(unit[2], unit[1])))
             elif part == "WITHIN?":
                 tol = None
                 if toks[i][0] == "n" and toks[i][1] == "within":
@@ -352,6 +370,8 @@ _MAKE = {  # rule -> statement from (fast path, keyword, its column, the parts' 
     "end": lambda f, kw, c, v: End(f.loc(c, kw)),
     "use": lambda f, kw, c, v: Use(v[0][1], v[1][1], v[2], v[3], f.loc(v[1][2], v[1][1]),
                                    f.loc(v[0][2], v[0][1])),
+    "spread": lambda f, kw, c, v: Spread(v[0], v[1], v[2], v[3], v[0].loc),
+    "spec": lambda f, kw, c, v: Spec(v[0][1], v[1], v[2], f.loc(v[0][2], v[0][1])),
     "claim": lambda f, kw, c, v: Claim(v[0][1], "exact" if v[1][1] == "=" else "approx", v[2], v[3],
                                        f.loc(v[0][2], v[0][1]), f.loc(v[0][2], v[0][1])),
 }
@@ -468,6 +488,19 @@ class _Rules:
         kind = "exact" if op.value == "=" else "approx"
         return Claim(q.value, kind, value, tol[0] if tol else None, self._loc(q), self._loc(q))
 
+    def spread(self, items):
+        target, lo, *rest = [i for i in items if getattr(i, "type", None) != "RANGE"]
+        hi = rest.pop(0) if rest and not isinstance(rest[0], Param) else None
+        return Spread(target, lo, hi, rest, target.loc)
+
+    def spec(self, items):
+        q, lo, _, hi = items
+        return Spec(q.value, lo, hi, self._loc(q))
+
+    def bound(self, items):
+        value, *unit = items
+        return Bound(value, unit[0].value if unit else None, self._loc(unit[0]) if unit else None)
+
     def _node(self, tok) -> Node:
         return Node(tok.value.strip(), self._loc(tok))
 
@@ -553,7 +586,7 @@ def _run(start: str, text: str, file: str):
 _EXPECT_NAMES = {"NAME": "a name", "QUANTITY": "a number", "_NL": "end of line", "LPAR": "'('",
                  "RPAR": "')'", "COMMA": "','", "EQUAL": "'='", "STRING": "a quoted string",
                  "$END": "end of file", "ADD_OP": "'+' or '-'", "MUL_OP": "'*' or '/'", "POW_OP": "'^'",
-                 "PAR_OP": "'||'", "CLAIM_OP": "'=' or '~'", "DOT": "'.'", "WITHIN": "'within'",
+                 "PAR_OP": "'||'", "CLAIM_OP": "'=' or '~'", "DOT": "'.'", "RANGE": "'..'", "WITHIN": "'within'",
                  "VALUED_KW": "an element keyword", "CONTROLLED_KW": "an element keyword",
                  "SENSED_KW": "an element keyword", "DEVICE_KW": "a device keyword"}
 
@@ -696,8 +729,10 @@ def _lark_netlist(text: str, file: str, diags: Diagnostics) -> Netlist:
 
 
 def _exprs(s):
-    for attr in ("value", "tolerance"):
+    for attr in ("value", "tolerance", "lo", "hi"):
         v = getattr(s, attr, None)
+        if isinstance(v, Bound):
+            v = v.value
         if v is not None and not isinstance(v, (str, list)):
             yield v
     for p in getattr(s, "params", ()) or ():

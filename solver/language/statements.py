@@ -96,7 +96,37 @@ class Claim:
     quantity_loc: Loc
 
 
-Statement = Title | Let | ElementStmt | Output | Ground | BlockStart | End | Use | Claim
+@dataclass(slots=True)
+class Spread:
+    """``spread NAME TOL`` (hi None) or ``spread NAME LO .. HI``, with ``, dist=...`` params."""
+
+    target: Ref
+    lo: Expr
+    hi: Expr | None
+    params: list[Param]
+    loc: Loc
+
+
+@dataclass(slots=True)
+class Bound:
+    """One bound of a spec: an expression, optionally followed by a unit word (``dB``)."""
+
+    value: Expr
+    unit: str | None
+    unit_loc: Loc | None
+
+
+@dataclass(slots=True)
+class Spec:
+    """``spec QUANTITY LO .. HI``: the magnitude of a port quantity between two bounds."""
+
+    quantity: str
+    lo: Bound
+    hi: Bound
+    loc: Loc
+
+
+Statement = Title | Let | ElementStmt | Output | Ground | BlockStart | End | Use | Claim | Spread | Spec
 
 
 @dataclass

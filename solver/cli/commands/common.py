@@ -35,8 +35,7 @@ def frequency(text: str, option: str = "--at") -> float:
 
 
 def emit_json(obj) -> None:
-    json.dump(obj, sys.stdout, indent=2, allow_nan=False)
-    sys.stdout.write("\n")
+    sys.stdout.write(json.dumps(obj, indent=2, allow_nan=False) + "\n")  # one write, not one per token
 
 
 def print_warnings(warnings) -> None:
