@@ -393,3 +393,25 @@ def test_symbolic_supply_gain_is_the_millman_form(cli, netlist):
     assert out.returncode == 0, out.stderr
     obj = json.loads(out.stdout)
     assert obj["supply"] == "VCC" and obj["quantity"] == "supply:VCC"
+
+
+def test_monte_carlo_cmrr_equals_solve_sample_by_sample():
+    # the batched evaluation of spread/tune forms CMRR from its Avo and Acm rows like solve does:
+    # each sample against the ordinary pipeline on a netlist carrying that sample's values
+    # (mismatched collector resistors and source resistance: the rs || rs halves follow VB.rs)
+    from solver.analysis.pipeline import prepare
+    from solver.analysis.variation import Evaluator, knob
+    text = (Path(__file__).resolve().parents[1] / "circuits" / "loadcell_diffpair.pw").read_text()
+    c = solver.loads(text)
+    ev = Evaluator(c, prepare(c), 0.0, ["CMRR", "Acm", "Avo"])
+    vals = {"RCA": np.array([21.5e3, 22e3, 22.6e3]), "RCB": np.array([22.4e3, 22e3, 21.7e3]),
+            "VB.rs": np.array([500.0, 1e3, 2e3])}
+    got = ev.run({knob(c, k): v for k, v in vals.items()}, 3)
+    assert got.valid.all()
+    for i in range(3):
+        t = text.replace("RCA (vcc, ca) 22k", f"RCA (vcc, ca) {vals['RCA'][i]}") \
+                .replace("RCB (vcc, cb) 22k", f"RCB (vcc, cb) {vals['RCB'][i]}") \
+                .replace("rs=1k", f"rs={vals['VB.rs'][i]}")
+        ref = solver.solve(solver.loads(t), 0.0).quantities
+        for q in ("Acm", "Avo", "CMRR"):
+            assert abs(got.quantities[q][i] - ref[q]) <= 1e-9 * abs(ref[q])
