@@ -31,7 +31,9 @@ def test_derive_json_shape_and_sympy_field(cli, netlist):
     r = cli("derive", netlist(CE), "Avo", "--json")
     assert r.returncode == 0, r.stderr
     d = json.loads(r.stdout)
-    assert set(d) >= {"quantity", "expression", "latex", "sympy", "symbols"}
+    assert set(d) >= {"quantity", "expression", "where", "size", "sympy", "symbols"}
+    assert "latex" not in d  # LaTeX only when asked (--latex)
+    assert d["where"] == [] and d["size"] == 3  # -Q1.gm*(Q1.ro || RC): three symbol occurrences
     assert d["symbols"] == {"Q1_gm": "Q1.gm", "Q1_ro": "Q1.ro", "RC": "RC"}
     loc = {k: sympy.Symbol(k, positive=True) for k in d["symbols"]}
     e = sympy.parse_expr(d["sympy"], local_dict=loc)  # trusted: the program's own output

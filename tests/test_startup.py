@@ -145,3 +145,24 @@ def test_condition_estimate_dense_route_equals_the_sparse_route(seed, monkeypatc
         # exact 1-norm condition number of the same equilibrated matrix both ways (numpy.linalg.cond)
         assert dense == pytest.approx(sparse, rel=1e-12)  # equal up to rounding of the scaling
         assert 1.0 <= dense < mna.DENSE_COND_TRUST
+
+
+def test_cli_derive_imports_neither_sympy_nor_scipy():
+    # derive writes its forms straight from the polynomials (issue 12, item 5); its LaTeX
+    # (only with --latex) comes from the same expression nodes, so neither needs sympy
+    code = r"""
+import contextlib, io, json, runpy, sys
+sys.argv = ['solver', 'derive', 'circuits/mic_preamp.pw', 'all', '--json', '--latex']
+out = io.StringIO()
+with contextlib.redirect_stdout(out):
+    try:
+        runpy.run_module('solver', run_name='__main__')
+    except SystemExit as e:
+        assert e.code in (0, None), e.code
+d = json.loads(out.getvalue())
+assert len(d['quantities']) == 7 and all('latex' in q for q in d['quantities'])
+assert 'sympy' not in sys.modules, 'sympy imported'
+assert not any(m.startswith('scipy') for m in sys.modules), sorted(m for m in sys.modules if m.startswith('scipy'))
+"""
+    p = _run(code)
+    assert p.returncode == 0, p.stderr

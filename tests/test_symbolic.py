@@ -307,9 +307,10 @@ def test_latex_renders_with_mathtext(quantity):
     c = solver.loads("signal VS (b, gnd) 1 mV, rs=1k\nnpn Q1 (c, b, gnd) gm=40m, rpi=2k5, ro=100k, cmu=1p\n"
                      "resistor RC (c, gnd) 5k\ncapacitor CL (c, gnd) 1n\nload RL (c, gnd) 10k\n")
     (x,) = derive(c, [quantity])
-    buf = io.BytesIO()
-    mathtext.math_to_image(f"${x.latex}$", buf, format="png")
-    assert buf.getvalue().startswith(b"\x89PNG")
+    for line in x.latex.splitlines():  # the expression, then one line per where line
+        buf = io.BytesIO()
+        mathtext.math_to_image(f"${line}$", buf, format="png")
+        assert buf.getvalue().startswith(b"\x89PNG")
 
 
 def test_latex_names():
@@ -407,8 +408,9 @@ def test_follower_output_resistance_prints_as_textbook():
     from solver.analysis.symbolic.derive import derive
     c = solver.loads("signal VS (b, gnd) 1 mV, rs=1k\nnpn Q1 (gnd, b, e) gm=40m, rpi=2k5\n"
                      "resistor RE (e, gnd) 2k\nload RL (e, gnd) 1k\n")
+    # (the same section also writes it RE || (re + rs/(beta + 1)), with re = rpi/(beta + 1))
     (d,) = derive(c, ["Rout"])
-    assert d.plain == "RE || (Q1.rpi + VS.rs)/(Q1.gm*Q1.rpi + 1)"
+    assert d.plain == "RE || (Q1.re + VS.rs/(Q1.beta + 1))"
     assert same(to_sympy(parse_expression(d.plain), c), par(RE, (rpi + rs) / (gm * rpi + 1)))
 
 
@@ -423,7 +425,9 @@ def test_divider_form_and_every_quantity_round_trips():
     c = solver.load(CIRCUITS / "hydrophone_preamp.pw")
     exact = symbolic_port_quantities(c)
     shown = {d.quantity: d.plain for d in derive(c, list(exact))}
-    assert shown["Gv"] == "-Q1.gm*(Q1.rpi || RB)*(Q1.ro || RC || RF)/(VH.rs + Q1.rpi || RB)"
+    # the textbook form has 9 symbol occurrences; the printed one may be no longer
+    (gv,) = derive(c, ["Gv"])
+    assert gv.size <= 9, shown["Gv"]
     assert set(shown) == set(exact) == {"Rin", "Rout", "Avo", "Av", "Gv", "Gvo", "Ai"}
     for name, text in shown.items():
         assert same(to_sympy(parse_expression(text), c), exact[name].expr()), name

@@ -14,4 +14,7 @@ def verdict_json(v) -> dict:
             "holds": v.holds, "exact": v.exact, "value": z(v.value), "claimed": z(v.claimed),
             "rel_error": v.rel_error if math.isfinite(v.rel_error) else "inf",
             "tolerance": v.tolerance, "exact_when": v.exact_when,
-            "exact_expression": v.exact_expression}
+            "exact_expression": v.exact_expression,
+            "exact_when_text": v.exact_when_words,
+            "exact_when_search": {"complete": v.search_complete, "tried": v.searched[0], "of": v.searched[1],
+                                  "note": v.search_note}}

@@ -14,10 +14,10 @@ its lowest or highest powers in that symbol, so they are exact and cheap.
 from __future__ import annotations
 
 import cmath
-import itertools
 import math
 import random
 from dataclasses import dataclass, field
+from fractions import Fraction
 
 from solver.language import expr as ex
 from solver.diagnostics import error
@@ -27,7 +27,6 @@ from solver.engine.symbolic.ring import exact_fraction
 from solver.engine.symbolic.stamper import S_NAME
 
 INF_WORDS = {"oo": "oo", "inf": "oo", "infinity": "oo", "∞": "oo", "0": "0"}
-MAX_LIMIT_CANDIDATES = 14
 
 
 # --- claim expressions -> sympy ---------------------------------------------------------
@@ -49,6 +48,126 @@ def parallel(a, b):
     return a * b / (a + b)
 
 
+class _SympyAlgebra:
+    """The claim tree's operations over sympy expressions."""
+
+    def __init__(self):
+        import sympy
+        self.sympy = sympy
+        self.inf = sympy.oo
+        self.pi = sympy.pi
+
+    def num(self, x):
+        return _rational(x)
+
+    def sym(self, name):
+        return symbol(name)
+
+    def unary(self, op, v):
+        return -v if op == "-" else v
+
+    def binary(self, op, a, b):
+        if op == "+":
+            return a + b
+        if op == "-":
+            return a - b
+        if op == "*":
+            return a * b
+        if op == "/":
+            return a / b
+        if op == "^":
+            return a ** b
+        return parallel(a, b)
+
+    def call(self, func, v):
+        sympy = self.sympy
+        return {"sqrt": sympy.sqrt, "exp": sympy.exp, "ln": sympy.log, "abs": sympy.Abs,
+                "log10": lambda x: sympy.log(x, 10)}[func](v)
+
+
+class NotRational(Exception):
+    """The claim is not a rational function of the circuit's symbols (sqrt, exp, pi, infinity...)."""
+
+
+_INFINITE = object()
+
+
+class RingAlgebra:
+    """The claim tree's operations over (numerator, denominator) pairs of the engine's ring.
+
+    Parameters
+    ----------
+    ring : solver.engine.symbolic.ring.Ring
+        Over the generators ``[s] + circuit symbols`` (the exact quantity's ring).
+    """
+
+    def __init__(self, ring):
+        self.ring = ring
+        self.index = {n: i for i, n in enumerate(ring.names)}
+        self.inf = _INFINITE
+        self.pi = None
+
+    def num(self, x):
+        if math.isinf(x):
+            if x > 0:
+                return _INFINITE
+            raise NotRational("-infinity")
+        return (self.ring.const(exact_fraction(x)), self.ring.one)
+
+    def sym(self, name):
+        if name not in self.index:
+            raise NotRational(name)
+        return (self.ring.gens[self.index[name]], self.ring.one)
+
+    def unary(self, op, v):
+        if v is _INFINITE:
+            raise NotRational("infinity")
+        return (-v[0], v[1]) if op == "-" else v
+
+    def binary(self, op, a, b):
+        if op == "||":
+            if a is _INFINITE:
+                return b
+            if b is _INFINITE:
+                return a
+            an, ad = a
+            bn, bd = b
+            return self._norm(an * bn, an * bd + bn * ad)
+        if a is _INFINITE or b is _INFINITE or a is None or b is None:
+            raise NotRational("infinity")
+        (an, ad), (bn, bd) = a, b
+        if op == "+":
+            return (an * bd + bn * ad, ad * bd)
+        if op == "-":
+            return (an * bd - bn * ad, ad * bd)
+        if op == "*":
+            return (an * bn, ad * bd)
+        if op == "/":
+            return self._norm(an * bd, ad * bn)
+        # ^: an integer constant exponent only
+        terms = self.ring.to_dict(bn)
+        zero = (0,) * len(self.ring.names)
+        if bd != self.ring.one or any(m != zero for m in terms):
+            raise NotRational("a symbolic power")
+        q = Fraction(terms.get(zero, 0))
+        if q.denominator != 1:
+            raise NotRational("a fractional power")
+        k = int(q)
+        if k < 0:
+            an, ad, k = ad, an, -k
+            if an == 0:
+                raise NotRational("division by zero")
+        return (an ** k, ad ** k)
+
+    def _norm(self, n, d):
+        if d == 0:
+            raise NotRational("division by zero")
+        return (n, d)
+
+    def call(self, func, v):
+        raise NotRational(func)
+
+
 def to_sympy(e: ex.Expr, c: Circuit, scope=None, symbols: set[str] | None = None):
     """The sympy form of a netlist expression tree, in the circuit's symbols.
 
@@ -68,86 +187,101 @@ def to_sympy(e: ex.Expr, c: Circuit, scope=None, symbols: set[str] | None = None
     >>> to_sympy(c.claims[0].expr, c)
     RL/(R1 + RL)
     """
-    import sympy
+    return walk(e, c, _SympyAlgebra(), scope, symbols)
+
+
+def to_rational(e: ex.Expr, c: Circuit, ring, scope=None, symbols: set[str] | None = None):
+    """The claim as a :class:`solver.analysis.symbolic.limits.Rat` over ``ring``'s generators.
+
+    Raises :class:`NotRational` for a claim that is not a rational function (sqrt, exp, pi).
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> from solver.engine.symbolic.ring import Ring
+    >>> c = loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nload RL (b, gnd) 2k\\n"
+    ...           "claim Gv = RL || R1\\n")
+    >>> r = to_rational(c.claims[0].expr, c, Ring(["s", "R1", "RL"]))
+    >>> sorted(r.num), sorted(r.den)
+    ([(0, 1, 1)], [(0, 0, 1), (0, 1, 0)])
+    """
+    from solver.analysis.symbolic.limits import Rat
+    v = walk(e, c, RingAlgebra(ring), scope, symbols)
+    if v is _INFINITE:
+        raise NotRational("infinity")
+    n, d = v
+    return Rat(n, d, ring)
+
+
+def walk(e: ex.Expr, c: Circuit, A, scope=None, symbols: set[str] | None = None):
+    """Evaluate a netlist expression tree in the algebra ``A`` (sympy or the engine's ring)."""
     from solver.analysis.symbolic.ports import circuit_symbols
     res = c.resolver
     scope = scope or res.top
     if symbols is None:
         symbols = set(circuit_symbols(c))
-    rec = lambda t, sc=scope: to_sympy(t, c, sc, symbols)  # noqa: E731
+    rec = lambda t, sc=scope: walk(t, c, A, sc, symbols)  # noqa: E731
     if isinstance(e, ex.Num):
-        return _rational(e.value)
+        return A.num(e.value)
     if isinstance(e, ex.Unary):
-        v = rec(e.operand)
-        return -v if e.op == "-" else v
+        return A.unary(e.op, rec(e.operand))
     if isinstance(e, ex.Binary):
-        a, b = rec(e.left), rec(e.right)
-        if e.op == "+":
-            return a + b
-        if e.op == "-":
-            return a - b
-        if e.op == "*":
-            return a * b
-        if e.op == "/":
-            return a / b
-        if e.op == "^":
-            return a ** b
-        return parallel(a, b)
+        return A.binary(e.op, rec(e.left), rec(e.right))
     if isinstance(e, ex.Call):
-        v = rec(e.arg)
-        return {"sqrt": sympy.sqrt, "exp": sympy.exp, "ln": sympy.log, "abs": sympy.Abs,
-                "log10": lambda x: sympy.log(x, 10)}[e.func](v)
+        return A.call(e.func, rec(e.arg))
     if isinstance(e, ex.Ref):
-        return _ref(e, c, scope, symbols, rec)
+        return _ref(e, c, scope, symbols, rec, A)
     raise AssertionError(type(e))
 
 
-def _sym_or(name: str, symbols, fallback):
-    return symbol(name) if name in symbols else fallback
-
-
-def _ref(e: ex.Ref, c: Circuit, scope, symbols, rec):
-    import sympy
+def _ref(e: ex.Ref, c: Circuit, scope, symbols, rec, A):
     res = c.resolver
     entry, attr = res.resolve(e, scope)
     if entry is None:
-        return sympy.pi
+        if A.pi is None:
+            raise NotRational("pi")
+        return A.pi
     if entry.kind in ("let", "param"):
         return rec(entry.expr, entry.scope)
     full = entry.full
+    sym = A.sym
     if entry.kind == "signal":
         if attr == "rs":
-            return _sym_or(f"{full}.rs", symbols, _rational(c.signal.rs))
-        return _rational(res.value_of(entry, None, e.loc).x)
+            return sym(f"{full}.rs") if f"{full}.rs" in symbols else A.num(c.signal.rs)
+        return A.num(res.value_of(entry, None, e.loc).x)
     if entry.kind == "element":
         if full in symbols:
-            return symbol(full)
-        return _rational(res.value_of(entry, None, e.loc).x)  # a supply: a fixed number
+            return sym(full)
+        return A.num(res.value_of(entry, None, e.loc).x)  # a supply: a fixed number
     # a device quantity
     dev = c.device(full) or res.device(entry)  # the analysed (biased) circuit's own device first
     name = f"{full}.{attr}"
     if dev.kind == "opamp":
         if name in symbols:
-            return symbol(name)
+            return sym(name)
         raise error(e.loc, f"'{full}' is an ideal op-amp: its gain is infinite and has no symbol "
                     "(give gain= for a finite-gain op-amp)")
     if name in symbols:
-        return symbol(name)
+        return sym(name)
     ss = dev.ss
+    one = A.num(1.0)
     if dev.is_bjt:
         if dev.model == "t":
-            re_, al = symbol(f"{full}.re"), symbol(f"{full}.alpha")
-            derived = {"gm": al / re_, "rpi": re_ / (1 - al), "beta": al / (1 - al)}
+            re_, al = sym(f"{full}.re"), sym(f"{full}.alpha")
+            derived = {"gm": lambda: A.binary("/", al, re_),
+                       "rpi": lambda: A.binary("/", re_, A.binary("-", one, al)),
+                       "beta": lambda: A.binary("/", al, A.binary("-", one, al))}
         else:
-            gm, rpi = symbol(f"{full}.gm"), symbol(f"{full}.rpi")
-            beta = gm * rpi
-            derived = {"beta": beta, "alpha": beta / (beta + 1), "re": rpi / (beta + 1)}
+            gm, rpi = sym(f"{full}.gm"), sym(f"{full}.rpi")
+            beta = lambda: A.binary("*", gm, rpi)  # noqa: E731
+            derived = {"beta": beta, "alpha": lambda: A.binary("/", beta(), A.binary("+", beta(), one)),
+                       "re": lambda: A.binary("/", rpi, A.binary("+", beta(), one))}
         if attr in derived:
-            return derived[attr]
+            return derived[attr]()
     if attr in ("ro", "rpi", "re", "rd") and math.isinf(ss.get(attr, math.inf)):
-        return sympy.oo
+        return A.inf
     if attr in ss:
-        return _rational(ss[attr])  # absent elements (0 F, 0 Ω rx) and bias quantities: numbers
+        return A.num(ss[attr])  # absent elements (0 F, 0 Ω rx) and bias quantities: numbers
     raise error(e.loc, f"{full} has no {attr}")
 
 
@@ -253,49 +387,6 @@ def _degenerate(v) -> bool:
     return v == 0 or v.has(sympy.oo, sympy.zoo, sympy.nan)
 
 
-def describe_limit(name: str, to: str) -> str:
-    return f"{name} -> {to}"
-
-
-def exact_when(exact, claimed, max_pairs: bool = True) -> list[str]:
-    """The limits under which the claim becomes exact: single symbols first, then pairs.
-
-    Each symbol is sent to oo and to 0 in both expressions; a limit that makes
-    the exact quantity 0 or unbounded is not offered (it says nothing about the formula).
-
-    Returns
-    -------
-    list of str
-        e.g. ``["Q1.ro -> oo"]`` or ``["Q1.ro -> oo and Q1.rpi -> oo"]``; empty when none.
-    """
-    import sympy
-    cands = sorted((exact.free_symbols | claimed.free_symbols), key=sympy.default_sort_key)
-    cands = cands[:MAX_LIMIT_CANDIDATES]
-    moves = [(x, to) for x in cands for to in ("oo", "0")]
-
-    def apply(e, steps):
-        for x, to in steps:
-            e = rational_limit(e, x, to)
-            if _degenerate(e):
-                return None
-        return e
-
-    found = []
-    for m in moves:
-        le, lc = apply(exact, [m]), apply(claimed, [m])
-        if le is not None and lc is not None and identical(le, lc):
-            found.append(describe_limit(m[0].name, m[1]))
-    if found or not max_pairs:
-        return found
-    for m1, m2 in itertools.combinations(moves, 2):
-        if m1[0] == m2[0]:
-            continue
-        le, lc = apply(exact, [m1, m2]), apply(claimed, [m1, m2])
-        if le is not None and lc is not None and identical(le, lc):
-            found.append(" and ".join(describe_limit(x.name, to) for x, to in (m1, m2)))
-    return found
-
-
 def parse_limit(text: str, symbols) -> tuple[str, str]:
     """``NAME=oo`` or ``NAME=0`` from a ``--limit`` option; bad text is bad input."""
     name, sep, to = text.partition("=")
@@ -392,8 +483,12 @@ class Verdict:
     claimed: complex
     rel_error: float
     tolerance: float | None
-    exact_when: list[str] = field(default_factory=list)
+    exact_when: list[str] = field(default_factory=list)  # machine form: "Q1.ro -> oo and RL -> oo"
     exact_expression: str = ""  # the exact quantity in plain text ("" when too long to show)
+    exact_when_words: list[str] = field(default_factory=list)  # as a designer says it: "Q1.β → ∞ (gm fixed)"
+    search_complete: bool = True  # False: the exact-when search stopped early (search_note says why)
+    search_note: str = ""
+    searched: tuple[int, int] = (0, 0)  # (limits and pairs tried, of how many)
 
 
 def numeric(expr, values: dict, s: complex) -> complex:
@@ -409,15 +504,31 @@ def numeric(expr, values: dict, s: complex) -> complex:
     return complex(v)
 
 
-def check_claims(c: Circuit, frequency_hz: float) -> list[Verdict]:
+def _rel(value: complex, cv: complex) -> float:
+    if value == 0:
+        return 0.0 if cv == 0 else math.inf
+    if cmath.isinf(value) or cmath.isinf(cv):
+        return 0.0 if (cmath.isinf(value) and cmath.isinf(cv)) else math.inf
+    return abs(cv - value) / abs(value)
+
+
+def check_claims(c: Circuit, frequency_hz: float, search_seconds: float | None = None) -> list[Verdict]:
     """Verdict for every claim of the circuit at ``frequency_hz``.
 
     The quantity's value comes from the numeric engine; exactness and
-    ``exact_when`` from the symbolic engine with every symbol kept.
+    ``exact_when`` from the symbolic engine with every symbol kept, on its own
+    polynomials (:mod:`solver.analysis.symbolic.limits`): a claim is identical
+    when the cross-multiplied difference is the zero polynomial. The exact-when
+    search tries the designer's limits (:func:`~solver.analysis.symbolic.limits.designer_moves`)
+    one at a time, then in pairs, within ``search_seconds`` per claim (default
+    :data:`solver.analysis.symbolic.limits.SEARCH_SECONDS`), and says when it stopped.
     """
     from solver.analysis import scenarios
     from solver.analysis.ports import port_quantities
+    from solver.analysis.symbolic import limits as L
     from solver.analysis.symbolic.ports import symbol_values, symbolic_port_quantities
+    from solver.engine.symbolic.ring import Ring
+    seconds = L.SEARCH_SECONDS if search_seconds is None else search_seconds
     values = symbol_values(c)
     s = 2j * math.pi * frequency_hz
     wanted = sorted({cl.quantity for cl in c.claims})
@@ -431,36 +542,136 @@ def check_claims(c: Circuit, frequency_hz: float) -> list[Verdict]:
             raise error(cl.loc, f"claim on {cl.quantity}: the circuit with the signal applied common-mode "
                         "is singular")
     sym = symbolic_port_quantities(c, which=wanted)
+    gens = sym[wanted[0]].gens
+    ring = Ring(gens)
+    point = [s] + [values[g] for g in gens[1:]]
+    moves: dict[str, list] = {}
     from solver.analysis.symbolic.ports import scenario_elements
     from solver.analysis.symbolic.printing import symbol_dims
     dims = symbol_dims(scenario_elements(c))
     out = []
     for cl in c.claims:
-        claimed = to_sympy(cl.expr, c)
-        exact_expr = sym[cl.quantity].expr()
+        sq = sym[cl.quantity]
         value = nums[cl.quantity]
-        cv = numeric(claimed, values, s)
-        if value == 0:
-            rel = 0.0 if cv == 0 else math.inf
-        elif cmath.isinf(value) or cmath.isinf(cv):
-            rel = 0.0 if (cmath.isinf(value) and cmath.isinf(cv)) else math.inf
+        exact = L.from_dicts(ring, sq.num, sq.den)
+        try:
+            # a dB quantity (CMRR) is compared in dB: the sympy path, never the ratio's polynomials
+            claimed = to_rational(cl.expr, c, ring) if sq.den and cl.quantity not in scenarios.DECIBELS else None
+        except NotRational:
+            claimed = None
+        note, found, complete, tried = "", None, True, (0, 0)
+        if claimed is None:  # sqrt, exp, pi in the claim, or an unbounded quantity: sympy decides
+            claimed_expr = to_sympy(cl.expr, c)
+            cv = numeric(claimed_expr, values, s)
+            is_exact = identical(sq.expr(), claimed_expr)
+            if not is_exact:
+                complete, note = False, "no limits searched: the claim is not a rational function of the symbols"
         else:
-            rel = abs(cv - value) / abs(value)
-        is_exact = identical(exact_expr, claimed)
+            cv = claimed.value(point)
+            is_exact = L.identical(exact, claimed)
+            if not is_exact:
+                if cl.quantity not in moves:
+                    moves[cl.quantity] = L.designer_moves(c, gens, values, s, exact)
+                found = L.search(exact, claimed, moves[cl.quantity], seconds)
+                complete, note, tried = found.complete, found.note(), (found.tried, found.total)
+        rel = _rel(value, cv)
         holds = is_exact if cl.kind == "exact" else rel <= cl.tolerance
-        when = [] if is_exact else exact_when(exact_expr, claimed)
         out.append(Verdict(cl.line, cl.quantity, cl.kind, claim_text(c, cl), holds, is_exact, value, cv, rel,
-                           cl.tolerance, when, _shown(exact_expr, dims)))
+                           cl.tolerance, found.keys if found else [],
+                           _in_db(cl.quantity, _shown(claimed if is_exact and claimed is not None else sq, dims)),
+                           found.words if found else [], complete, note, tried))
     return out
 
 
+@dataclass
+class Checked:
+    """The claims of one netlist checked: what :func:`check` returns.
+
+    circuit      -- the circuit analysed (the biased copy when the bias was solved)
+    frequency_hz -- where the values were compared
+    verdicts     -- one :class:`Verdict` per claim line, in netlist order
+    warnings     -- every warning of the input checks (diagnostics)
+    notes        -- how the frequency was chosen, bias cautions
+    """
+
+    circuit: Circuit
+    frequency_hz: float
+    verdicts: list
+    warnings: list = field(default_factory=list)
+    notes: list = field(default_factory=list)
+
+    @property
+    def holds(self) -> bool:
+        return all(v.holds for v in self.verdicts)
+
+
+def check(c: Circuit, at: float | None = None, force: bool = False, search_seconds: float | None = None) -> Checked:
+    """Check the claim lines of ``c`` after the same input checks as every analysis.
+
+    Runs :func:`solver.analysis.pipeline.prepare` (signal and output port, the DC
+    view's source laws, the bias solve, the graph checks of every configuration),
+    so a netlist ``solve`` refuses is refused here with the same
+    ``FILE:LINE:COL`` diagnostics, then :func:`check_claims` at ``at`` Hz (default:
+    as solve, the detected midband; DC without reactive parts).
+
+    Raises
+    ------
+    solver.diagnostics.InputError
+        Bad input: no claim lines, a claim on an undefined quantity or an unknown
+        symbol, a circuit the checks refuse or that cannot be solved.
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> c = loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, b) 1k\\nload RL (b, gnd) 2k\\n"
+    ...           "claim Gv = RL/(R1 + RL)\\n")
+    >>> check(c).verdicts[0].holds
+    True
+    """
+    from solver.analysis.pipeline import analysis_frequency, prepare
+    from solver.analysis.ports import PortError
+    from solver.analysis.singular import explain_singular
+    p = prepare(c, "ports", "dc" if at == 0 else "ac", force)
+    if not p.circuit.claims:
+        raise p.fail([error(None, f"'{c.file}' has no claim lines (write e.g. "
+                                  "'claim Av ~ -RC/RE within 10%')").diagnostics[0]])
+    f, notes = analysis_frequency(p.circuit, at)
+    try:
+        verdicts = check_claims(p.circuit, f, search_seconds)
+    except PortError as e:
+        raise p.fail(explain_singular(p.circuit, f, str(e))) from None
+    return Checked(p.circuit, f, verdicts, list(p.warnings), list(p.notes) + notes)
+
+
+def _in_db(quantity: str, shown: str) -> str:
+    """A dB quantity's exact expression is 20*log10(abs(ratio)) around its ratio's form (issue 18)."""
+    from solver.analysis import scenarios
+    return f"20*log10(abs({shown}))" if shown and quantity in scenarios.DECIBELS else shown
+
+
 MAX_SHOWN = 200
+#: the exact quantity is written (forms.write_form) only up to this many expanded terms: a longer
+#: ratio does not print within MAX_SHOWN characters, and the printer's search would cost more than the check
+MAX_SHOWN_TERMS = 40
+SHOWN_WORK = 50  # the printer's work bound for it (forms.write_form ``work``)
+SHOWN_SECONDS = 0.3  # and its wall-clock guard (forms.write_form ``seconds``)
 
 
-def _shown(expr, dims) -> str:
-    """The exact quantity as plain text with ||, or "" when longer than MAX_SHOWN characters."""
-    from solver.analysis.symbolic.printing import plain, recognize_parallel
-    text = plain(recognize_parallel(expr, dims))
+def _shown(q, dims=None) -> str:
+    """The exact quantity in its design-oriented form (forms.write_form), or "" when longer than MAX_SHOWN.
+
+    ``q`` is a SymbolicQuantity, or an identical claim's own rational function
+    (:class:`~solver.analysis.symbolic.limits.Rat`: the same function, usually far fewer terms);
+    ``dims`` the symbols' dimensions (printing.symbol_dims), for the printer's || forms.
+    """
+    if q.nterms > MAX_SHOWN_TERMS:
+        return ""
+    num, den = q.dicts() if hasattr(q, "dicts") else (q.num, q.den)
+    if not num or not den:
+        return ""
+    from solver.analysis.symbolic.forms import write_form
+    f = write_form(num, den, q.gens, work=SHOWN_WORK, dims=dims, seconds=SHOWN_SECONDS)
+    text = f.text if not f.where else ""
     return text if len(text) <= MAX_SHOWN else ""
 
 

@@ -228,8 +228,10 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
     which : iterable of quantity names or None (all)
         ``"supply:NAME"`` adds the gain from supply NAME to v_out (the signal zeroed, the
         load in place), read from the scenario table's configuration for that supply.
-    compact : bool
-        Return nested, unexpanded sympy expressions instead of expanded ratios.
+    compact : bool or "nodes"
+        Return nested, unexpanded sympy expressions instead of expanded ratios; "nodes":
+        (numerator, denominator) as :class:`solver.analysis.symbolic.forms.Node` DAGs
+        sharing every memoised minor (for :func:`solver.analysis.symbolic.forms.compact_form`).
 
     Returns
     -------
@@ -246,7 +248,11 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
     kept = choose_symbols(c, keep, numeric)
     base = small_signal_elements(c)
     ring = Ring(variable_names(kept, [scenario_elements(c)]))
-    domain = _compact_domain(ring, kept) if compact else None
+    if compact == "nodes":  # the printer's own expression nodes (no sympy): forms.compact_domain
+        from solver.analysis.symbolic.forms import compact_domain
+        domain = compact_domain(ring)
+    else:
+        domain = _compact_domain(ring, kept) if compact else None
     configs: dict = {}
 
     def stamped(m):
@@ -266,7 +272,9 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
             continue
         num = s.read(m.num)
         den = s.read(m.den) if m.den is not None else s.det
-        if domain is not None:
+        if compact == "nodes":
+            result[q] = (num, den)
+        elif domain is not None:
             result[q] = num / den
         else:
             result[q] = SymbolicQuantity(q, RationalFunction(num, den, ring).cancel(), kept)
@@ -276,13 +284,20 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
         m = table.supply_measurement(c, q[len(table.SUPPLY):], base)
         st = stamped(m)
         num, den = st.read(m.num), st.det
-        result[q] = num / den if domain is not None else \
-            SymbolicQuantity(q, RationalFunction(num, den, ring).cancel(), kept)
+        if compact == "nodes":
+            result[q] = (num, den)
+        else:
+            result[q] = num / den if domain is not None else \
+                SymbolicQuantity(q, RationalFunction(num, den, ring).cancel(), kept)
     for q, (a, b) in table.DECIBELS.items():
         if q not in table.quantities(c) or (which is not None and q not in which):
             continue
         parts = symbolic_port_quantities(c, keep, numeric, (a, b), compact)
         if b not in parts:
+            continue
+        if compact == "nodes":  # the ratio's numerator and denominator as the printer's nodes
+            (na, da), (nb, db) = parts[a], parts[b]
+            result[q] = (na * db, da * nb)
             continue
         if compact:
             import sympy

@@ -6,8 +6,11 @@ DESCRIPTION = """\
 Every 'claim Q = EXPR' must equal the exact quantity identically (for all symbol
 values); every 'claim Q ~ EXPR within TOL' must be within TOL (relative) at the
 nominal values and the analysis frequency. For a claim that is not exact, the
-limits that would make it exact are searched (each symbol to 0 and to infinity,
-then pairs) and shown as "exact when ..."."""
+limits a designer takes that would make it exact are searched (ro → ∞, β → ∞
+with gm fixed, gm → ∞, rx → 0, capacitors shorted or opened, RL → ∞, rs → 0,
+the two halves of a symmetric circuit matched; one at a time, then in pairs,
+within a time bound) and shown as "exact when ...". Limits that change the
+device itself (rπ → 0 would set β to zero) are never offered."""
 EPILOG = """\
 example:
   portwise check circuits/mic_preamp.pw
@@ -43,9 +46,16 @@ def table(verdicts) -> str:
             verdict += ", identical" if v.exact else ""
         rows.append((str(v.line), v.text, _z(v.value), _z(v.claimed), err, verdict))
         if not v.exact:
-            when = [w.replace(" -> oo", " → ∞").replace(" -> 0", " → 0") for w in v.exact_when]
-            notes.append(f"  line {v.line}: " + (f"exact when {'; or '.join(when)}" if when
-                                                 else "no single limit or pair of limits makes it exact"))
+            when = v.exact_when_words
+            if when:
+                said = f"exact when {'; or '.join(when)}"
+            elif v.search_complete:
+                said = "no designer's limit or pair of limits makes it exact"
+            else:
+                said = "no limit found that makes it exact"
+            if v.search_note:
+                said += f"; {v.search_note}"
+            notes.append(f"  line {v.line}: {said}")
             if v.exact_expression:
                 notes.append(f"    exact {v.quantity} = {v.exact_expression}")
     widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
@@ -57,25 +67,15 @@ def table(verdicts) -> str:
 
 
 def run(args) -> int:
-    from solver.analysis.pipeline import analysis_frequency, load, prepare
-    from solver.analysis.ports import PortError
-    from solver.analysis.singular import explain_singular
-    from solver.analysis.symbolic.claims import check_claims
+    from solver.analysis.pipeline import load
+    from solver.analysis.symbolic.claims import check
     from solver.cli.commands.common import emit_json, frequency, print_warnings
-    from solver.diagnostics import error
     from solver.output.report import CAUTION, eng
     at = frequency(args.at) if args.at is not None else None
-    p = prepare(load(args.file), "ports", "dc" if at == 0 else "ac")
-    c = p.circuit
-    print_warnings(p.warnings)
-    if not c.claims:
-        raise error(None, f"'{args.file}' has no claim lines (write e.g. 'claim Av ~ -RC/RE within 10%')")
-    f, _ = analysis_frequency(c, at)
-    try:
-        verdicts = check_claims(c, f)
-    except PortError as e:
-        raise p.fail(explain_singular(c, f, str(e))) from None
-    ok = all(v.holds for v in verdicts)
+    res = check(load(args.file), at)  # the same input checks as solve (pipeline.prepare)
+    print_warnings(res.warnings)
+    c, f, verdicts = res.circuit, res.frequency_hz, res.verdicts
+    ok = res.holds
     if args.json:
         from solver.output.claims import verdict_json
         emit_json({"frequency_hz": f, "claims": [verdict_json(v) for v in verdicts]})

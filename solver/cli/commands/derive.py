@@ -1,19 +1,24 @@
 """portwise derive: a port quantity as an exact expression in the circuit's own symbols."""
 from __future__ import annotations
 
-HELP = "exact symbolic expression of a port quantity (with || for parallel combinations)"
+HELP = "exact symbolic expression of a port quantity, written in design-oriented form"
 DESCRIPTION = """\
 Solve the small-signal circuit symbolically: every element value is a symbol
 named after the element (RC, RL), the signal's resistance is VS.rs, a BJT gives
 Q1.gm, Q1.rpi, Q1.ro (when finite) ... and s is the complex frequency. The
-result is printed in the netlist's expression language, with || for the
-parallel combinations it recognises (e.g. -Q1.gm*(Q1.ro || RC || RL))."""
+result is printed in the netlist's expression language, built from the circuit's
+structure: parallel (||), series and divider forms and the extra-element form
+H0*(1 + x/Zn)/(1 + x/Zd), with the device symbols Q1.beta = Q1.gm*Q1.rpi,
+Q1.re = Q1.rpi/(Q1.beta + 1), Q1.alpha = Q1.beta/(Q1.beta + 1) where they shorten
+it (e.g. -Q1.gm*(Q1.ro || RC || RL)). Big results are written once per shared part,
+as 'where' lines below the expression; --expanded prints the flat ratio."""
 EPILOG = """\
 examples:
   portwise derive circuits/mic_preamp.pw Av
   portwise derive circuits/mic_preamp.pw Av --limit Q1.ro=oo
   portwise derive circuits/mic_preamp.pw all --keep RC,RL,Q1.gm --latex
   portwise derive circuits/mic_preamp.pw Gv --dominant 5% --json
+  portwise derive circuits/mic_preamp.pw Rin --expanded
   portwise derive circuits/loadcell_diffpair.pw --supply VCC --keep RCB,RT,R1,R2
 
 Symbols not kept take their netlist values. --dominant drops, coefficient by
@@ -52,7 +57,8 @@ def add_arguments(p) -> None:
     p.add_argument("--at", metavar="FREQ", help="frequency for the --dominant error (default as solve)")
     p.add_argument("--expand-bias", action="store_true",
                    help="write bias-form devices' gm, rpi, ro in terms of ic, beta, va and V_T")
-    p.add_argument("--latex", action="store_true", help="print LaTeX (\\parallel for ||)")
+    p.add_argument("--latex", action="store_true", help="print LaTeX (\\parallel for ||); with --json, add it")
+    p.add_argument("--expanded", action="store_true", help="print the flat sum-of-products ratio")
     p.add_argument("--json", action="store_true", help="print JSON")
     p.add_argument("--around", metavar="NAME",
                    help="for T, Ginf, G0: the loop's controlled source (Q1, U1, G1), as portwise loop")
@@ -74,6 +80,7 @@ def run(args) -> int:
     from solver.analysis.pipeline import analysis_frequency, load, prepare
     from solver.analysis.symbolic.claims import parse_limit
     from solver.analysis.symbolic.derive import derive
+    from solver.analysis.symbolic.forms import SYMPY_MAX_TERMS
     from solver.analysis.symbolic.ports import circuit_symbols
     from solver.cli.commands.common import emit_json, frequency, print_warnings
     from solver.diagnostics import error
@@ -110,16 +117,25 @@ def run(args) -> int:
     numeric = _names(args.numeric)
     tol = tolerance(args.dominant) if args.dominant is not None else None
     f, _ = analysis_frequency(c, at)
-    results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias, around=args.around)
+    results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias, args.expanded, around=args.around)
     if not results:
         raise error(None, f"{args.quantity} is not defined here: the circuit with the signal applied "
                     "common-mode is singular")
     if args.json:
         items = []
         for d in results:
-            item = {"quantity": d.quantity, "expression": d.plain,
-                    **({"supply": args.supply} if args.supply is not None else {}), "latex": d.latex, "sympy": d.sympy,
-                    "symbols": d.symbols}
+            item = {"quantity": d.quantity, "expression": d.plain, "where": d.form.where_dicts(),
+                    **({"supply": args.supply} if args.supply is not None else {}),
+                    "size": d.size, "form": d.form.kind}
+            sym_text = d.form.sympy_text(None if args.expanded else SYMPY_MAX_TERMS)
+            item["sympy"] = sym_text
+            if sym_text is None:
+                n = (len(d.form.num) + len(d.form.den)) if d.form.num is not None else d.form.expanded_terms
+                item["sympy_omitted"] = f"the expanded ratio has {'up to ' if d.form.num is None else ''}{n} " \
+                                        "terms; --expanded writes it"
+            item["symbols"] = d.symbols
+            if args.latex:
+                item["latex"] = d.latex
             if d.pruned is not None:
                 item["dominant"] = {"tolerance": tol, "frequency_hz": f, "terms_dropped": d.pruned.dropped,
                                     "terms_kept": d.pruned.kept,
@@ -130,9 +146,13 @@ def run(args) -> int:
         emit_json(items[0] if len(items) == 1 else {"quantities": items})
         return 0
     for d in results:
-        text = d.latex if args.latex else d.plain
         label = f"A_{args.supply}" if args.supply is not None else d.quantity
-        print(f"{label} = {text}")
+        if args.latex:
+            print(f"{label} = {d.latex}")
+        else:
+            print(f"{label} = {d.plain}")
+            for name, text in d.where:
+                print(f"  where {name} = {text}")
         if d.pruned is not None:
             print(f"  dominant terms ({tol:.3g} tolerance): dropped {d.pruned.dropped}, kept {d.pruned.kept}; "
                   f"error at {f:g} Hz {d.pruned.error_at_f:.3g} (bound {d.pruned.bound_at_f:.3g})")
