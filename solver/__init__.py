@@ -17,10 +17,11 @@ __all__ += ["loop"]  # feedback: return ratio, asymptotic gain, Blackman, margin
 __all__ += ["report"]  # the HTML design report
 __all__ += ["sensitivity", "spread", "tune"]  # tolerances, Monte Carlo, part values
 __all__ += ["noise", "NoiseResult"]  # noise: densities, en/in, noise figure, contributions
+__all__ += ["headroom"]  # headroom and output swing from the bias point
 
 
 def __getattr__(name):  # lazy: `portwise --help` need not import numpy and scipy
-    if name in _API or name in ("sensitivity", "spread", "tune", "noise", "NoiseResult"):
+    if name in _API or name in ("sensitivity", "spread", "tune", "noise", "NoiseResult", "headroom", "loop"):
         from solver import api
         return getattr(api, name)
     if name == "InputError":

@@ -20,7 +20,7 @@ from pathlib import Path
 
 from solver.analysis import pipeline
 from solver.analysis.pipeline import analysis_frequency, load, loads, read_source  # noqa: F401  (the API)
-from solver.analysis.ports import UNITS, PortError, port_quantities
+from solver.analysis.ports import UNITS, PortError, port_quantities, supply_gains, supply_rejection
 from solver.analysis.singular import conditioning, explain_singular
 from solver.bulk import paused_gc
 from solver.circuit.model import Circuit
@@ -43,9 +43,8 @@ class Result:
     warnings: list[Diagnostic] = field(default_factory=list)
     #: with ``midband=True``: the capacitors' classification (solver.analysis.midband.Midband)
     midband: object = None
-    #: the exact ratio written whatever its size; LaTeX in the dictionary
-    expanded: bool = False
-    latex: bool = False
+    #: {supply: {"gain": complex, "unit": "V/V" | "ohm", "psrr_db": float | None}} (PSRR = |Av/A_supply|)
+    supply_rejection: dict[str, dict] = field(default_factory=dict)
 
     def to_json(self) -> str:
         """:meth:`to_dict` as a JSON string (infinite values as ``"inf"``)."""
@@ -60,6 +59,10 @@ class Result:
                                "unit": UNITS[k]} for k, v in self.quantities.items()},
             "devices": {name: {k: _num(v) for k, v in p.items()} for name, p in self.devices.items()},
         }
+        out["supply_rejection"] = {
+            name: {"gain": {"re": _num(r["gain"].real), "im": _num(r["gain"].imag), "unit": r["unit"]},
+                   "psrr_db": None if r["psrr_db"] is None else _num(r["psrr_db"])}
+            for name, r in self.supply_rejection.items()}
         if self.notes:  # e.g. "evaluated at the detected midband frequency"
             out["notes"] = list(self.notes)
         if self.midband is not None:
@@ -127,7 +130,69 @@ def solve(circuit: Circuit | str | Path, at: float | None = None, force: bool = 
         except PortError as e:
             raise p.fail(explain_singular(p.circuit, f, str(e))) from None
         warnings = p.warnings + conditioning(p.circuit, f)
-    return Result(p.circuit, f, pr.quantities, device_table(p.circuit), p.notes + why, p.bias, warnings)
+        rejection = _rejection(p.circuit, f, pr.quantities)
+        from solver.analysis import scenarios
+        if scenarios.why_undefined(p.circuit, "Acm") is None and "Acm" not in pr.quantities:
+            why.append("Acm and CMRR are not given: the circuit with the signal applied common-mode is "
+                       "singular (a signal node held by a voltage source?)")
+    return Result(p.circuit, f, pr.quantities, device_table(p.circuit), p.notes + why, p.bias, warnings,
+                  supply_rejection=rejection)
+
+
+def _rejection(c: Circuit, f: float, quantities: dict) -> dict:
+    """Supply rejection of every supply at f: its gain to v_out and PSRR against Av."""
+    from solver.analysis import scenarios
+    if not c.supplies:
+        return {}
+    gains = supply_gains(c, f)
+    return supply_rejection(gains, quantities["Av"], {n: scenarios.supply_unit(c, n) for n in gains})
+
+
+def headroom(circuit: Circuit | str | Path, at: float | None = None):
+    """Headroom of every transistor and the output swing from the DC operating point.
+
+    Returns a :class:`HeadroomResult`: the :class:`solver.analysis.headroom.Headroom`
+    (``.devices``, ``.swing``, ``.warnings``) with ``.to_dict()`` and ``.to_json()`` in the
+    JSON rule of every command; ``at`` is where the AC load is taken (default: the
+    analysis frequency of ``solve``).
+
+    Examples
+    --------
+    >>> import solver
+    >>> h = solver.headroom(solver.loads('''
+    ... supply VCC (vcc, gnd) 10 V
+    ... supply IB (vcc, b) 10 uA
+    ... npn Q1 (c, b, gnd) beta=100
+    ... resistor RC (vcc, c) 4k
+    ... '''))
+    >>> round(h.devices["Q1"].cutoff_v, 3), h.swing is None
+    (4.0, True)
+    """
+    from solver.analysis.headroom import headroom as _headroom, headroom_frequency
+    c = circuit if isinstance(circuit, Circuit) else load(circuit)
+    with paused_gc():
+        p = pipeline.prepare(c, "bias")
+        f = float(at) if at is not None else headroom_frequency(p.circuit)[0]
+        h = _headroom(p.circuit, p.bias, f)
+    h.warnings[:0] = p.warnings
+    return HeadroomResult(h)
+
+
+class HeadroomResult:
+    """:func:`headroom`'s result: the analysis value, and its JSON form ("headroom", "swing")."""
+
+    def __init__(self, h):
+        self.value = h
+
+    def __getattr__(self, name):
+        return getattr(self.value, name)
+
+    def to_dict(self) -> dict:
+        return self.value.to_dict(_num)
+
+    def to_json(self) -> str:
+        import json
+        return json.dumps(self.to_dict(), allow_nan=False)
 
 
 def midband_circuit(circuit: Circuit | str | Path, force: bool = False):
@@ -168,6 +233,8 @@ class BiasReport(_Dictable):
     bias: object
     notes: list[str] = field(default_factory=list)
     warnings: list[Diagnostic] = field(default_factory=list)
+    #: solver.analysis.headroom.Headroom of the transistors (None without any)
+    headroom: object = None
 
     @property
     def nodes(self) -> dict[str, float]:
@@ -179,7 +246,7 @@ class BiasReport(_Dictable):
 
     def to_dict(self) -> dict:
         from solver.output.biasreport import bias_json
-        out = bias_json(self.bias, self.circuit)
+        out = bias_json(self.bias, self.circuit, self.headroom)
         if self.notes:
             out["notes"] = list(self.notes)
         return out
@@ -199,7 +266,9 @@ def bias(circuit: Circuit | str | Path) -> BiasReport:
     c = _circuit(circuit)
     with paused_gc():
         p = pipeline.prepare(c, "bias")
-    return BiasReport(p.circuit, p.bias, list(p.bias.notes), p.warnings)
+        from solver.analysis.headroom import bias_headroom
+        h = bias_headroom(p.circuit, p.bias)
+    return BiasReport(p.circuit, p.bias, list(p.bias.notes), p.warnings + (h.warnings if h is not None else []), h)
 
 
 @dataclass

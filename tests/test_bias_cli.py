@@ -14,7 +14,8 @@ def test_bias_json_has_the_documented_shape(cli, netlist):
     r = cli("bias", p, "--json")
     assert r.returncode == 0, r.stderr
     obj = json.loads(r.stdout)
-    assert set(obj) == {"nodes", "devices", "iterations", "supplies", "conventions"}
+    assert set(obj) == {"nodes", "devices", "iterations", "supplies", "conventions",
+                        "headroom", "swing", "headroom_frequency_hz"}  # headroom: issue 18
     assert "negative for a pnp" in obj["conventions"]["currents"]
     assert obj["iterations"] <= 30
     q = obj["devices"]["Q1"]

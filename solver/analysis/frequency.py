@@ -77,6 +77,9 @@ class Scenario:
     system: System
     num: Readout
     den: Readout | None = None  # None: H = num (per unit excitation)
+    #: a common-mode or supply read-out: values at the round-off level of the solution are 0
+    #: (the rule of solver.analysis.ports.CANCELLED)
+    cancel: bool = False
 
     @property
     def size(self) -> int:
@@ -135,6 +138,9 @@ def scenario(c: Circuit, quantity: str) -> Scenario:
     why = table.why_undefined(c, quantity)
     if why:
         raise ResponseError(why)
+    if quantity in table.DECIBELS:
+        raise ResponseError(f"{quantity} is the ratio of {' and '.join(table.DECIBELS[quantity])} in dB: "
+                            "sweep those two (or a supply's rejection with --supply)")
     systems = {}
 
     def stamped(m):
@@ -151,7 +157,33 @@ def scenario(c: Circuit, quantity: str) -> Scenario:
 
     m = table.chosen(c, quantity, singular, small_signal_elements(c))
     sys_ = stamped(m)
-    return Scenario(quantity, sys_, _readout(sys_, m.num), None if m.den is None else _readout(sys_, m.den))
+    return Scenario(quantity, sys_, _readout(sys_, m.num), None if m.den is None else _readout(sys_, m.den),
+                    m.config.drive == "common")
+
+
+def supply_scenario(c: Circuit, name: str) -> Scenario:
+    """Stamp the gain from supply ``name`` to v_out (:func:`solver.analysis.scenarios.supply_measurement`).
+
+    Raises
+    ------
+    ResponseError
+        When the circuit has no such supply.
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> c = loads("supply VCC (vcc, gnd) 9 V\\nsignal VS (b, gnd) 1 V\\nresistor RB (b, gnd) 1k\\n"
+    ...           "resistor R1 (vcc, a) 1k\\ncapacitor C1 (a, gnd) 1u\\noutput (a, gnd)\\n")
+    >>> h = response(supply_scenario(c, "VCC"), np.array([1 / (2 * np.pi * 1e-3)]))
+    >>> complex(np.round(h[0], 6))
+    (0.5-0.5j)
+    """
+    try:
+        m = table.supply_measurement(c, name)
+    except table.QuantityError as e:
+        raise ResponseError(str(e)) from None
+    sys_ = assemble(list(m.config.elements), c.ground)
+    return Scenario(m.quantity, sys_, _readout(sys_, m.num), None, True)
 
 
 def default_quantity(c: Circuit) -> str:
@@ -480,6 +512,10 @@ def response(sc: Scenario, freqs: np.ndarray, dense: bool | None = None) -> np.n
     s = 2j * np.pi * np.asarray(freqs, float)
     x = solve_many(sc.system, s, dense)
     num = sc.num(x)
+    if sc.cancel:
+        n = len(sc.system.stamper.nodes)
+        scale = np.max(np.abs(x[:, :n]), axis=1) if n else np.zeros(len(s))
+        num = np.where(np.abs(num) <= table.CANCELLED * scale, 0j, num)
     if sc.den is None:
         return num
     den = sc.den(x)

@@ -38,9 +38,22 @@ def ratio(a: complex, b: complex) -> complex:
     return a / b
 
 
-def read(system: System, x, terms) -> complex:
-    """The value of a read-out (a tuple of :class:`~solver.analysis.scenarios.Term`) in solution x."""
+CANCELLED = sc.CANCELLED
+
+
+def read(system: System, x, terms, cancel: bool = False) -> complex:
+    """The value of a read-out (a tuple of :class:`~solver.analysis.scenarios.Term`) in solution x.
+
+    ``cancel``: a result at the round-off level of the solution (:data:`CANCELLED`) is 0, as a
+    perfectly matched pair's common-mode output is.
+    """
     total = 0j
+    if cancel:
+        import numpy as np
+        n = len(system.stamper.nodes)
+        scale = float(np.max(np.abs(x[:n]))) if n else 0.0
+        value = read(system, x, terms)
+        return 0j if abs(value) <= CANCELLED * scale else value
     for t in terms:
         if t.kind == "node":
             v = system.voltage(x, t.name)
@@ -79,9 +92,46 @@ def measure(c: Circuit, quantity: str, s: complex, solves: _Solves | None = None
         except SingularSystem:
             return True
 
+    if quantity in sc.DECIBELS:
+        num, den = (measure(c, q, s, solves) for q in sc.DECIBELS[quantity])
+        return complex(sc.decibels(num, den), 0.0)
     m = sc.chosen(c, quantity, singular, solves.base)
     system, x = solves(m)
-    return ratio(read(system, x, m.num), read(system, x, m.den) if m.den else 1.0)
+    cancel = m.config.drive == "common"
+    return ratio(read(system, x, m.num, cancel), read(system, x, m.den) if m.den else 1.0)
+
+
+def supply_gains(c: Circuit, frequency_hz: float, solves: _Solves | None = None) -> dict[str, complex]:
+    """{supply: v_out per unit of that supply} at one frequency (load in place, signal zeroed).
+
+    A supply whose configuration is singular is left out.
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> c = loads("supply VCC (vcc, gnd) 9 V\\nsignal VS (a, gnd) 1 V, rs=1k\\nresistor R1 (vcc, a) 1k\\n"
+    ...           "resistor R2 (a, gnd) 1k\\noutput (a, gnd)\\n")
+    >>> round(supply_gains(c, 0.0)["VCC"].real, 6)  # R2 || rs over R1 + R2 || rs
+    0.333333
+    """
+    s = 2j * math.pi * frequency_hz
+    solves = solves or _Solves(c, s)
+    out = {}
+    for name in sc.supply_names(c):
+        m = sc.supply_measurement(c, name, solves.base)
+        try:
+            system, x = solves(m)
+        except SingularSystem:
+            continue
+        out[name] = read(system, x, m.num, cancel=True)
+    return out
+
+
+def supply_rejection(gains: dict[str, complex], av: complex, units: dict[str, str]) -> dict[str, dict]:
+    """PSRR = 20 log10 |Av / A_supply| for each supply gain, with the gain itself."""
+    return {name: {"gain": g, "unit": units[name],
+                   "psrr_db": sc.decibels(av, g) if units[name] == "V/V" else None}
+            for name, g in gains.items()}
 
 
 def port_quantities(c: Circuit, frequency_hz: float, which=None) -> PortResult:
@@ -108,6 +158,8 @@ def port_quantities(c: Circuit, frequency_hz: float, which=None) -> PortResult:
         try:
             res.quantities[q] = measure(c, q, s, solves)
         except SingularSystem:
+            if q in sc.DIFFERENTIAL:  # e.g. a signal node tied to a supply: no common-mode drive
+                continue
             if q == "Rout":
                 raise PortError("the output port has no defined Thevenin impedance (singular system)") from None
             desc = sc.measurement(c, q, base=solves.base).config.description

@@ -28,6 +28,9 @@ class Summary:
     zeros: np.ndarray | None
     estimates: Estimates | None
     notes: list[str] = field(default_factory=list)
+    #: ``sweep --supply NAME``: the supply swept (h is then its gain to v_out) and PSRR (dB) per point
+    supply: str | None = None
+    psrr_db: np.ndarray | None = None
 
     @property
     def gbw_hz(self) -> float | None:
@@ -50,16 +53,27 @@ class Summary:
         return out
 
 
-def analyse(c: Circuit, quantity: str, freqs: np.ndarray) -> Summary:
+def analyse(c: Circuit, quantity: str, freqs: np.ndarray, supply: str | None = None) -> Summary:
     """Sweep, band, poles and zeros, estimates (gains only) for one quantity.
+
+    With ``supply``, the swept quantity is the gain from that supply to v_out (signal
+    zeroed, load in place) and the summary carries PSRR = 20 log10 |Av / A_supply| per point.
 
     Raises
     ------
     frequency.ResponseError
         For a quantity the circuit does not define.
     """
-    sc = fr.scenario(c, quantity)
-    h = fr.response(sc, freqs)
+    psrr = None
+    if supply is not None:
+        sc = fr.supply_scenario(c, supply)
+        quantity = sc.quantity
+        h = fr.response(sc, freqs)
+        av = fr.response(fr.scenario(c, "Av"), freqs)
+        psrr = np.array([_db_ratio(a, g) for a, g in zip(av, h)])
+    else:
+        sc = fr.scenario(c, quantity)
+        h = fr.response(sc, freqs)
     notes = []
     if not np.all(np.isfinite(h)):
         notes.append(f"{int((~np.isfinite(h)).sum())} sweep point(s) are singular or infinite")
@@ -72,6 +86,13 @@ def analyse(c: Circuit, quantity: str, freqs: np.ndarray) -> Summary:
     est = None
     if quantity in GAINS and b is not None:
         est = estimate(c, quantity, b.midband_hz)
-    elif quantity not in GAINS:
+    elif quantity not in GAINS and supply is None:
         notes.append("time-constant estimates are given for gains only")
-    return Summary(c, quantity, freqs, h, b, poles, zeros, est, notes)
+    return Summary(c, quantity, freqs, h, b, poles, zeros, est, notes, supply, psrr)
+
+
+def _db_ratio(a: complex, b: complex) -> float:
+    from solver.analysis.scenarios import decibels
+    if not (np.isfinite(a) and np.isfinite(b)):
+        return math.nan
+    return decibels(complex(a), complex(b))

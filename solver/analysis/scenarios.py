@@ -24,7 +24,19 @@ Gvo     the same without the load                     signal     no      v_out /
 Ai      current gain                                  signal     yes     i_load / i_in
 Zt      transimpedance from the source (current sig.) signal     yes     v_out / 1
 Zto     the same without the load                     signal     no      v_out / 1
+Acm     common-mode gain (differential signal only)   common     no      v_out / 1
 ======  ============================================  =========  ======  ==============
+
+Acm drives the signal common-mode: one volt from the reference to both signal nodes
+together, the signal's rs split equally between the two sides (rs/2 each), signal source
+otherwise absent; it is defined when neither signal node is the reference. CMRR is not a
+row but a ratio of two (:data:`DECIBELS`): 20 log10 |Avo / Acm| in dB, Avo being the
+differential gain; every engine takes the two rows and forms the ratio in its own domain.
+
+Supply rejection uses one more configuration per supply (:func:`supply_measurement`): the
+supply's small-signal source at unit amplitude (1 V in series for a voltage supply, 1 A for
+a current supply), every other source zeroed (the signal behind its rs), the load in place;
+the read-out is v_out. PSRR = 20 log10 |Av / A_supply|.
 
 "load: yes" means the load when the circuit has one; without a load, Av = Avo,
 Gv = Gvo and Ai is not defined. The signal drives at unit amplitude, so "/ 1" is
@@ -46,24 +58,35 @@ A. S. Sedra, K. C. Smith, *Microelectronic Circuits*, 7th ed., section 1.5
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from solver.circuit.elements import CurrentSource, Element, VoltageSource
 from solver.circuit.model import PORT_QUANTITIES, Circuit
-from solver.circuit.views import load_element, signal_elements, small_signal_elements
+from solver.circuit.views import common_mode_elements, is_differential, load_element, signal_elements, \
+    small_signal_elements
 
 #: every port quantity, in report order
 QUANTITIES = PORT_QUANTITIES
 UNITS = {"Rin": "ohm", "Rout": "ohm", "Avo": "V/V", "Av": "V/V", "Gv": "V/V", "Gvo": "V/V",
-         "Ai": "A/A", "Zt": "ohm", "Zto": "ohm"}
+         "Ai": "A/A", "Zt": "ohm", "Zto": "ohm", "Acm": "V/V", "CMRR": "dB"}
 DEFINITIONS = {"Rin": "v_in/i_in", "Rout": "output impedance, load removed", "Avo": "v_out/v_in, no load",
                "Av": "v_out/v_in", "Gv": "v_out/v_sig", "Gvo": "v_out/v_sig, no load", "Ai": "i_load/i_in",
-               "Zt": "v_out/i_sig", "Zto": "v_out/i_sig, no load"}
+               "Zt": "v_out/i_sig", "Zto": "v_out/i_sig, no load",
+               "Acm": "v_out/v_cm, signal applied common-mode, no load", "CMRR": "20·log10|Avo/Acm|"}
 #: dimensionless gains (a gain-bandwidth product in Hz); Zt, Zto are transimpedances
 RATIOS = ("Gv", "Gvo", "Av", "Avo", "Ai")
 GAINS = ("Gv", "Gvo", "Av", "Avo", "Ai", "Zt", "Zto")
 #: the name of the test source at the output port (Rout)
 TEST = "{test}"
+#: every engine: a common-mode or supply read-out smaller than this times the solution's largest
+#: node voltage is the round-off of a cancellation (two matched halves), not a gain: it reads as
+#: exactly 0, so a perfectly matched pair with an ideal tail has CMRR inf. A matched pair
+#: leaves about 1e-13 (a few hundred times the double-precision epsilon, amplified by the
+#: system's conditioning); 1e-11 leaves a margin of a hundred. A real mismatch gives a
+#: common-mode gain many decades above it (common practice, no source).
+CANCELLED = 1e-11
+#: the drive prefix of a supply's configuration ("supply:VCC")
+SUPPLY = "supply:"
 #: the Rout measurements, in the order they are tried: the first whose system is not singular
 ROUT_ORDER = ("test-current", "test-voltage")
 
@@ -93,8 +116,31 @@ TABLE = {
     "Zt": Row("signal", True, "v_out", None, "A"),
     "Zto": Row("signal", False, "v_out", None, "A"),
     "Ai": Row("signal", True, "i_load", "i_in"),
+    "Acm": Row("common", False, "v_out", None, "V"),
 }
-assert tuple(TABLE) == QUANTITIES  # one row per quantity, in report order
+#: quantities that are the ratio of two rows in dB: name -> (numerator row, denominator row)
+DECIBELS = {"CMRR": ("Avo", "Acm")}
+#: the quantities that need a differential signal (neither node the reference)
+DIFFERENTIAL = ("Acm", "CMRR")
+assert tuple(TABLE) + tuple(DECIBELS) == QUANTITIES  # one row per quantity, in report order
+
+
+def decibels(num: complex, den: complex) -> float:
+    """20 log10 |num / den| in dB: inf when den is 0, -inf when num is 0 (nan for 0/0).
+
+    Examples
+    --------
+    >>> decibels(-100, 0.01), decibels(1, 0)
+    (80.0, inf)
+    """
+    a, b = abs(num), abs(den)
+    if b == 0:
+        return math.inf if a != 0 else math.nan
+    if a == 0:
+        return -math.inf
+    if math.isinf(a) or math.isnan(a) or math.isnan(b):
+        return math.nan if math.isinf(b) or math.isnan(a) or math.isnan(b) else math.inf
+    return 20.0 * math.log10(a / b)
 
 
 def quantities(c: Circuit) -> list[str]:
@@ -106,8 +152,7 @@ def quantities(c: Circuit) -> list[str]:
     >>> quantities(loads("signal VS (a, gnd) 1 V\\nresistor R1 (a, gnd) 1k\\noutput (a, gnd)\\n"))
     ['Rin', 'Rout', 'Avo', 'Av', 'Gv', 'Gvo']
     """
-    kind = c.signal.kind
-    return [q for q in QUANTITIES if TABLE[q].signal in (None, kind) and (q != "Ai" or c.load is not None)]
+    return [q for q in QUANTITIES if why_undefined(c, q) is None]
 
 
 def main_gain(c: Circuit) -> str:
@@ -117,8 +162,16 @@ def main_gain(c: Circuit) -> str:
 
 def why_undefined(c: Circuit, quantity: str) -> str | None:
     """None when ``quantity`` is defined for the circuit, else the reason in words."""
-    if quantity not in TABLE:
+    if quantity not in QUANTITIES:
         return f"unknown quantity '{quantity}' (one of {', '.join(QUANTITIES)})"
+    if quantity in DIFFERENTIAL:
+        if c.signal.kind != "V":
+            return f"{quantity} needs a voltage signal applied common-mode; this circuit has a current signal"
+        if not is_differential(c):
+            grounded = next(n for n in c.signal.nodes if n in c.ground)
+            return (f"{quantity} needs a differential signal (neither node the reference); "
+                    f"{c.signal.name} has a node at the reference ({grounded})")
+        return None
     row = TABLE[quantity]
     if quantity == "Ai" and c.load is None:
         return "Ai needs a load"
@@ -152,7 +205,7 @@ class Term:
 class Configuration:
     """One linear circuit to solve: its elements and the key that says which it is."""
 
-    drive: str       # "signal" | "zeroed" | "test-current" | "test-voltage"
+    drive: str       # "signal" | "zeroed" | "test-current" | "test-voltage" | "common" | "supply:NAME"
     loaded: bool
     elements: tuple[Element, ...]
 
@@ -166,6 +219,10 @@ class Configuration:
             return "with the load" if self.loaded else "without the load"
         if self.drive == "zeroed":
             return "with the signal zeroed"
+        if self.drive == "common":
+            return "with the signal applied common-mode"
+        if self.drive.startswith(SUPPLY):
+            return f"driven from supply {self.drive[len(SUPPLY):]}"
         return "at the output port test"
 
 
@@ -217,12 +274,18 @@ def configuration(c: Circuit, drive: str, loaded: bool, base: list[Element] | No
 
     drive "signal": the signal at unit amplitude; "zeroed": the signal zeroed (its rs stays:
     a voltage signal is a short behind it, a current signal an open); "test-current" /
-    "test-voltage": zeroed, and a unit test source at the output port.
+    "test-voltage": zeroed, and a unit test source at the output port; "common": the signal
+    applied common-mode (:func:`~solver.circuit.views.common_mode_elements`); "supply:NAME":
+    the signal zeroed and that supply's small-signal source at unit amplitude.
     """
     base = small_signal_elements(c) if base is None else base
     loaded = loaded and c.load is not None
     if drive == "signal":
         els = base + signal_elements(c, 1.0)
+    elif drive == "common":
+        els = base + common_mode_elements(c, 1.0)
+    elif drive.startswith(SUPPLY):
+        els = _supply_driven(c, drive[len(SUPPLY):], base)
     else:
         els = base + signal_elements(c, 0.0, with_source=False)
         op, on = c.output_port if c.has_output else (None, None)
@@ -233,6 +296,44 @@ def configuration(c: Circuit, drive: str, loaded: bool, base: list[Element] | No
     if loaded:
         els.append(load_element(c))
     return Configuration(drive, loaded, tuple(els))
+
+
+def _supply_driven(c: Circuit, name: str, base: list[Element]) -> list[Element]:
+    """The small-signal network with supply ``name`` at unit amplitude, the signal zeroed."""
+    sup = next((s for s in c.supplies if s.name == name), None)
+    if sup is None:
+        raise QuantityError(f"no supply '{name}' (supplies: {', '.join(s.name for s in c.supplies) or 'none'})")
+    if sup.ss_element is not None:  # a voltage supply: its short becomes a 1 V source (same name, same branch)
+        els = [replace(e, value=1.0) if e is sup.ss_element else e for e in base]
+    else:  # a current supply: open in the small-signal view, 1 A from P to N through it
+        els = base + [CurrentSource(sup.name, sup.nodes, 1.0, None, sup.name, sup.loc)]
+    return els + signal_elements(c, 0.0, with_source=False) if c.signal is not None else els
+
+
+def supply_names(c: Circuit) -> list[str]:
+    """The supplies whose rejection is reported, in netlist order."""
+    return [s.name for s in c.supplies]
+
+
+def supply_unit(c: Circuit, name: str) -> str:
+    """The unit of the gain from a supply to v_out: V/V for a voltage supply, ohm for a current one."""
+    return "V/V" if next(s for s in c.supplies if s.name == name).kind == "V" else "ohm"
+
+
+def supply_measurement(c: Circuit, name: str, base: list[Element] | None = None) -> Measurement:
+    """The gain from supply ``name`` to the output: v_out per unit of the supply, load in place.
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> c = loads("supply VCC (vcc, gnd) 9 V\\nsignal VS (a, gnd) 1 V\\nresistor R1 (vcc, a) 1k\\n"
+    ...           "resistor R2 (a, gnd) 1k\\noutput (a, gnd)\\n")
+    >>> m = supply_measurement(c, "VCC")
+    >>> m.config.drive, [t.name for t in m.num], m.den
+    ('supply:VCC', ['a', 'gnd'], None)
+    """
+    cfg = configuration(c, SUPPLY + name, True, base)
+    return Measurement(f"{SUPPLY}{name}", cfg, _readout(c, "v_out", cfg), None)
 
 
 def measurement(c: Circuit, quantity: str, rout: str = ROUT_ORDER[0],
@@ -265,13 +366,16 @@ def measurement(c: Circuit, quantity: str, rout: str = ROUT_ORDER[0],
     why = why_undefined(c, quantity)
     if why:
         raise QuantityError(why)
+    if quantity in DECIBELS:
+        raise QuantityError(f"{quantity} is the ratio of {' and '.join(DECIBELS[quantity])} in dB, "
+                            "not one measurement: measure those two")
     row = TABLE[quantity]
     if row.drive == "test":
         cfg = configuration(c, rout, False, base)
         if rout == "test-voltage":
             return Measurement(quantity, cfg, _readout(c, "one", cfg), _readout(c, "i_test", cfg))
         return Measurement(quantity, cfg, _readout(c, "v_out", cfg), None)
-    cfg = configuration(c, "signal", row.loaded, base)
+    cfg = configuration(c, row.drive, row.loaded, base)
     den = None if row.den is None else _readout(c, row.den, cfg)
     return Measurement(quantity, cfg, _readout(c, row.num, cfg), den)
 
@@ -284,7 +388,7 @@ def chosen(c: Circuit, quantity: str, singular, base: list[Element] | None = Non
     zero determinant for the symbolic engine). Rout takes the first of :data:`ROUT_ORDER`
     that is not singular, the last one regardless; every other quantity has one measurement.
     """
-    orders = ROUT_ORDER if TABLE[quantity].drive == "test" else ROUT_ORDER[:1]
+    orders = ROUT_ORDER if quantity in TABLE and TABLE[quantity].drive == "test" else ROUT_ORDER[:1]
     for k, rout in enumerate(orders):
         m = measurement(c, quantity, rout, base)
         if k + 1 == len(orders) or not singular(m):
@@ -296,7 +400,7 @@ def signal_configurations(c: Circuit, base: list[Element] | None = None) -> list
     """The distinct signal-driven configurations the port quantities use, the loaded one first."""
     base = small_signal_elements(c) if base is None else base
     keys = dict.fromkeys(TABLE[q].loaded and c.load is not None for q in quantities(c)
-                         if TABLE[q].drive == "signal")
+                         if q in TABLE and TABLE[q].drive == "signal")
     return [configuration(c, "signal", loaded, base) for loaded in sorted(keys, reverse=True)]
 
 

@@ -240,12 +240,15 @@ def sensitivity(circuit: Circuit, quantities=None, at: float | None = None, forc
     p = pipeline.prepare(c, "ports", "dc" if at is not None and float(at) == 0 else "ac", force)
     f, why = pipeline.analysis_frequency(p.circuit, at)
     bc = p.circuit
-    defined = sc.quantities(bc)
+    defined = [q for q in sc.quantities(bc) if q not in sc.DECIBELS]  # CMRR: a ratio of two rows in dB
     qs = list(quantities) if quantities else defined
     for q in qs:
         why_not = sc.why_undefined(bc, q)
         if why_not:
             raise error(None, f"sensitivity: {why_not}")
+        if q in sc.DECIBELS:
+            raise error(None, f"sensitivity: {q} is the ratio of {' and '.join(sc.DECIBELS[q])} in dB; "
+                        "ask for those two (its normalised sensitivity is theirs' difference)")
     s = 2j * math.pi * f
     solves = _Solves(bc, s)
 

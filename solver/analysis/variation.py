@@ -152,7 +152,10 @@ class Evaluator:
             except SingularSystem:
                 return True
 
-        self.measurements = {q: sc.chosen(bc, q, singular, solves.base) for q in self.quantities}
+        # a ratio in dB (CMRR, issue 18) is formed from its two rows' samples
+        rows = [q for q in self.quantities if q not in sc.DECIBELS]
+        rows += [r for q in self.quantities if q in sc.DECIBELS for r in sc.DECIBELS[q] if r not in rows]
+        self.measurements = {q: sc.chosen(bc, q, singular, solves.base) for q in rows}
         from solver.analysis.ports import measure
         self.finite = {}
         for q in self.quantities:
@@ -503,6 +506,17 @@ class Evaluator:
                     total = total + t.sign * v
                 return total
             num = read(m.num)
+            if m.config.drive == "common" or m.config.drive.startswith(sc.SUPPLY):
+                # the round-off of a cancellation (matched halves) is 0, as in every engine
+                k = len(st.nodes)
+                scale = np.max(np.abs(x[:, :k]), axis=1) if k else np.zeros(n)
+                num = np.where(np.abs(num) <= sc.CANCELLED * scale, 0j, num)
             with np.errstate(all="ignore"):
                 out[q] = num / read(m.den) if m.den else num
+        for q in self.quantities:
+            if q in sc.DECIBELS:
+                a, b = (np.abs(out[r]) for r in sc.DECIBELS[q])
+                with np.errstate(all="ignore"):
+                    db = np.where(b == 0, np.where(a == 0, np.nan, np.inf), 20 * np.log10(a / np.where(b == 0, 1, b)))
+                out[q] = db.astype(complex)
         return out

@@ -147,6 +147,32 @@ def _threshold(v_ref: float, i_s: float, vt: float) -> float:
     return v_ref * vt / _VT_REF + vt * math.log(_I_S_REF / i_s)
 
 
+def vce_sat(ic: float, m: BJTModel) -> float:
+    """V_CE at the edge of saturation for a BJT carrying collector current ``ic`` (n-type magnitudes).
+
+    The collector junction is then forward biased by the region boundary V_BC,sat of
+    :func:`bjt_region` (0.4 V for the reference part, moved with I_S and V_T), and the
+    Ebers–Moll transport equation at that V_BC gives the V_BE that carries ``ic``:
+    e^{V_BE/V_T} = I_C/I_S + e^{V_BC/V_T} + (e^{V_BC/V_T} - 1)/β_R (the Early factor, within a
+    few tenths of a volt of V_CE = 0, is left out). V_CE,sat = V_BE - V_BC.
+
+    References
+    ----------
+    J. J. Ebers, J. L. Moll, "Large-signal behavior of junction transistors", Proc. IRE 42(12),
+    1954; A. S. Sedra, K. C. Smith, *Microelectronic Circuits*, 7th ed., section 6.1 (the
+    saturation boundary), from memory.
+
+    Examples
+    --------
+    >>> round(vce_sat(1e-3, BJTModel(i_s=1e-15, beta_f=100.0)), 3)
+    0.314
+    """
+    vbc = _threshold(V_BC_SAT, m.i_s, m.vt)
+    ebc = math.exp(vbc / m.vt)
+    ebe = abs(ic) / m.i_s + ebc + (ebc - 1.0) / m.beta_r
+    return m.vt * math.log(ebe) - vbc
+
+
 def bjt_region(vbe: float, vbc: float, polarity: int = 1, i_s: float = _I_S_REF, vt: float = _VT_REF) -> str:
     """'active', 'saturation', 'cutoff' or 'reverse' from the junction biases.
 

@@ -70,6 +70,44 @@ def signal_elements(c: Circuit, amplitude: float = 1.0, with_source: bool = True
     return out
 
 
+#: the internal nodes between the common-mode sources and the two halves of rs
+CM_INT = ("{cm+}", "{cm-}")
+
+
+def is_differential(c: Circuit) -> bool:
+    """True when neither of the signal's nodes is the reference (a differential input).
+
+    Examples
+    --------
+    >>> from solver import loads
+    >>> is_differential(loads("signal VS (a, b) 1 V\\nresistor R1 (a, gnd) 1k\\nresistor R2 (b, gnd) 1k\\n"))
+    True
+    """
+    return c.signal is not None and not any(n in c.ground for n in c.signal.nodes)
+
+
+def common_mode_elements(c: Circuit, amplitude: float = 1.0) -> list[Element]:
+    """The signal applied common-mode: ``amplitude`` from the reference to both signal nodes together.
+
+    The signal's rs is split equally between the two sides: rs/2 in series with each node,
+    built as two resistors of value rs in parallel so that both engines keep the one symbol
+    ``VS.rs`` (rs || rs = rs/2). Each side has its own source of the same amplitude; two equal
+    sources from the reference are the one common-mode source seen by both halves.
+    """
+    sig = c.signal
+    ref = "gnd" if "gnd" in c.ground else sorted(c.ground)[0]
+    out: list[Element] = []
+    for node, inner, tag in zip(sig.nodes, CM_INT, "+-"):
+        if sig.rs != 0 and math.isfinite(sig.rs):
+            for k in "ab":
+                out.append(Resistor(f"{sig.name}.rs{tag}{k}", (inner, node), sig.rs, f"{sig.name}.rs",
+                                    sig.name, sig.loc))
+            out.append(VoltageSource(f"{sig.name}.cm{tag}", (inner, ref), amplitude, None, sig.name, sig.loc))
+        else:
+            out.append(VoltageSource(f"{sig.name}.cm{tag}", (node, ref), amplitude, None, sig.name, sig.loc))
+    return out
+
+
 def load_element(c: Circuit) -> Element:
     ld = c.load
     return Resistor(ld.name, ld.nodes, ld.value, ld.name, ld.name, ld.loc)

@@ -83,11 +83,11 @@ class BatchStamper(Stamper):
         self.n = n
 
     def value(self, e):
-        v = self.values.get(e.name)
+        v = self.values.get(e.name, self.values.get(e.symbol) if e.symbol else None)  # rs || rs: by symbol
         return e.value if v is None else _Lane(np.asarray(v))
 
     def recip(self, e):
-        v = self.values.get(e.name)
+        v = self.values.get(e.name, self.values.get(e.symbol) if e.symbol else None)
         return 1.0 / e.value if v is None else _Lane(1.0 / np.asarray(v))
 
     def _summed(self, trip):

@@ -65,11 +65,45 @@ def _from_bias(d) -> bool:
     return needs_bias(d)
 
 
-def bias_report(c: Circuit, res) -> str:
-    """The full ``portwise bias`` text: title, table, warnings, cautions."""
+def headroom_lines(h) -> list[str]:
+    """The headroom block: each transistor's margins to its region edges and the output swing.
+
+    ``h`` is a :class:`solver.analysis.headroom.Headroom`.
+    """
+    if not h.devices and not h.notes:
+        return []
+    at = "DC" if h.frequency_hz == 0 else eng(h.frequency_hz, "Hz")
+    out = [f"  headroom (margins to the region edges; AC load at {at})"]
+    dw = max((len(n) for n in h.devices), default=1)
+    for name, d in h.devices.items():
+        bjt = d.kind in ("npn", "pnp")
+        sat = (f"VCE - VCE,sat {eng(d.saturation_v, 'V')} (VCE,sat {eng(d.vsat_v, 'V')}, "
+               f"{'Ebers–Moll at the bias current' if d.vsat_source == 'ebers-moll' else d.vsat_source})"
+               if bjt else f"VDS - Vov {eng(d.saturation_v, 'V')} (Vov {eng(d.vsat_v, 'V')})")
+        load = "no AC load (∞)" if d.ac_load_ohm == float("inf") else f"AC load {eng(d.ac_load_ohm, 'Ω')}"
+        out.append(f"    {name:<{dw}}  to saturation: {sat}")
+        out.append(f"    {'':<{dw}}  to cutoff: {eng(d.cutoff_v, 'V')} "
+                   f"({'IC' if bjt else 'ID'} {eng(d.current_a, 'A')} × {load})")
+    if h.swing is not None:
+        w = h.swing
+        port = w.node if w.reference in ("gnd", "0") else f"{w.node} - {w.reference}"
+        out.append(f"  output swing at {port}: up {eng(w.up_v, 'V')} ({w.up_limit or 'no limit'}), "
+                   f"down {eng(w.down_v, 'V')} ({w.down_limit or 'no limit'}); "
+                   f"symmetric ±{eng(w.symmetric_v, 'V')}")
+        if w.needed_v is not None:
+            out.append(f"    the signal asks for ±{eng(w.needed_v, 'V')} at the output"
+                       + (" — it clips" if w.symmetric_v < w.needed_v else ""))
+    out.extend(f"  note: {n}" for n in h.notes)
+    return out
+
+
+def bias_report(c: Circuit, res, headroom=None) -> str:
+    """The full ``portwise bias`` text: title, table, headroom, warnings, cautions."""
     from solver.output.report import closing_lines
     out = [c.title or c.file, ""]
     out.extend(bias_lines(c, res))
+    if headroom is not None:
+        out.extend(headroom_lines(headroom))
     if res.notes:
         out.append("")
         out.extend(res.notes)
@@ -88,10 +122,11 @@ CONVENTIONS = {
 }
 
 
-def bias_json(res, c: Circuit) -> dict:
+def bias_json(res, c: Circuit, headroom=None) -> dict:
     """The ``portwise bias --json`` object (signed values for pnp and pmos, see CONVENTIONS).
 
-    ``c`` is the biased circuit (its devices carry their small-signal parameters).
+    ``c`` is the biased circuit (its devices carry their small-signal parameters);
+    ``headroom`` (:class:`solver.analysis.headroom.Headroom`) adds "headroom" and "swing".
     """
     keys = {"bjt": ("region", "ic", "ib", "vbe", "vce", "power"), "mos": ("region", "id", "vgs", "vds", "power"),
             "diode": ("region", "id", "vd", "power")}
@@ -103,6 +138,16 @@ def bias_json(res, c: Circuit) -> dict:
         entry = {k: (op[k] if k == "region" else _num(op[k])) for k in keys[kind]}
         entry.update({k: _num(d.ss[k]) for k in ss_keys[kind] if k in d.ss})
         devices[d.name] = entry
-    return {"nodes": {n: _num(v) for n, v in res.nodes.items()}, "devices": devices,
-            "supplies": {n: _num(i) for n, i in res.supplies.items()},
-            "iterations": res.iterations, "conventions": dict(CONVENTIONS)}
+    out = {"nodes": {n: _num(v) for n, v in res.nodes.items()}, "devices": devices,
+           "supplies": {n: _num(i) for n, i in res.supplies.items()},
+           "iterations": res.iterations, "conventions": dict(CONVENTIONS)}
+    if headroom is not None:
+        out.update(headroom.to_dict(_num))
+        out["conventions"]["headroom"] = HEADROOM_CONVENTION
+    return out
+
+
+HEADROOM_CONVENTION = ("volts, magnitudes for every polarity: saturation_v = VCE - VCE,sat (BJT; vsat_source "
+                       "'ebers-moll' at the bias current, or 0.2 V for a device given by ic=) or VDS - Vov "
+                       "(MOSFET); cutoff_v = bias current x AC load; swing up_v/down_v = how far v_out can "
+                       "rise/fall before a device leaves its region")

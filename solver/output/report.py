@@ -49,6 +49,8 @@ def complex_text(z: complex, unit: str = "", scale: float | None = None, digits:
     '0.0729 + j1.203'
     """
     u = UNIT_TEXT.get(unit, unit)
+    if unit == "dB":  # a rejection ratio (CMRR): its real part is already in dB
+        return decibel_text(z.real)
     if cmath.isinf(z) or cmath.isnan(z):
         return eng(z.real if not math.isnan(z.real) else z.imag, u)
     tiny = NOISE * (abs(z) if scale is None else scale)
@@ -112,6 +114,28 @@ def infinite_reason(c: Circuit, name: str, quantities: dict | None = None) -> st
     if name in ("Avo", "Av", "Gv", "Gvo"):
         return "ideal op-amp: infinite open-loop gain; give gain= for a finite one"
     return ""
+
+
+def decibel_text(db: float | None) -> str:
+    """A ratio in dB for the reports: infinite when the rejected gain is exactly 0."""
+    if db is None or math.isnan(db):
+        return "undefined"
+    if math.isinf(db):
+        return "infinite (the rejected gain is 0)" if db > 0 else "-infinite"
+    return f"{db:.2f} dB"
+
+
+def rejection_lines(rejection: dict) -> list[str]:
+    """The supply-rejection block of the solve report (PSRR = 20 log10 |Av / A_supply|)."""
+    if not rejection:
+        return []
+    out = ["", "supply rejection (gain from the supply to v_out, signal zeroed, load in place)"]
+    width = max(len(n) for n in rejection)
+    for name, r in rejection.items():
+        g = fmt_quantity(name, r["gain"], r["unit"]) if r["gain"] != 0 else "0 (no path to the output)"
+        psrr = "" if r["psrr_db"] is None else f"   PSRR {decibel_text(r['psrr_db'])}"
+        out.append(f"  {name:<{width}}  {g}{psrr}")
+    return out
 
 
 def safety_notes(c: Circuit) -> list[str]:
@@ -185,5 +209,6 @@ def solve_report(result, symbolic: dict | None = None) -> str:
     if real:
         out.append(f"  ({', '.join(real)}: phase within {REAL_PHASE_DEG:g}° of 0° or 180°, shown as signed "
                    "real numbers)")
+    out.extend(rejection_lines(getattr(result, "supply_rejection", {})))
     out.extend(closing_lines(c, result.notes))
     return "\n".join(out)

@@ -17,6 +17,9 @@ def summary_json(sm: Summary) -> dict:
     """The ``portwise sweep --json`` object."""
     b = sm.band
     pts = [{"f": float(f), "re": _num(z.real), "im": _num(z.imag)} for f, z in zip(sm.freqs, sm.h)]
+    if sm.psrr_db is not None:  # sweep --supply: the rejection at every point
+        for pt, db in zip(pts, sm.psrr_db):
+            pt["psrr_db"] = _jdb(db)
     summ: dict = {"midband_hz": None, "midband_db": None, "midband_phase_deg": None,
                   "f_low_hz": None, "f_high_hz": None, "bandwidth_hz": None, "gbw_hz": None}
     if b is not None:
@@ -37,7 +40,24 @@ def summary_json(sm: Summary) -> dict:
                                   "tau_s": t.tau, "group": t.group} for t in e.terms]
     summ["estimates"] = est
     summ["notes"] = list(sm.notes)
-    return {"quantity": sm.quantity, "points": pts, "summary": summ}
+    out = {"quantity": sm.quantity, "points": pts, "summary": summ}
+    if sm.supply is not None:
+        worst = _worst_psrr(sm)
+        out["supply"] = sm.supply
+        summ["psrr_min_db"] = None if worst is None else _jdb(worst[1])
+        summ["psrr_min_hz"] = None if worst is None else worst[0]
+    return out
+
+
+def _jdb(db: float):
+    from solver.output.jsonout import number
+    return number(float(db))
+
+
+def _worst_psrr(sm: Summary):
+    """(frequency, dB) of the least supply rejection in the sweep, or None."""
+    ok = [(float(f), float(d)) for f, d in zip(sm.freqs, sm.psrr_db) if not math.isnan(d)]
+    return min(ok, key=lambda t: t[1]) if ok else None
 
 
 def _num(x: float):
@@ -72,9 +92,17 @@ def _pz_lines(v: np.ndarray) -> list[str]:
 
 def text_report(sm: Summary) -> str:
     c, b = sm.circuit, sm.band
-    unit = UNITS[sm.quantity]
+    if sm.supply is not None:
+        from solver.analysis.scenarios import supply_unit
+        unit = supply_unit(c, sm.supply)
+        what = f"the gain from supply {sm.supply} to v_out (signal zeroed, load in place)"
+        label = f"A_{sm.supply}"
+    else:
+        label = sm.quantity
+        unit = UNITS[sm.quantity]
+        what = f"{sm.quantity} = {DEFINITIONS[sm.quantity]}"
     out = [c.title or Path(c.file).stem,
-           f"frequency response of {sm.quantity} = {DEFINITIONS[sm.quantity]}, "
+           f"frequency response of {what}, "
            f"{eng(sm.freqs[0], 'Hz')} to {eng(sm.freqs[-1], 'Hz')}, {len(sm.freqs)} points", ""]
     if b is None:
         out.append("no flat top in the range (the response is nowhere flat, or zero or not finite): "
@@ -84,7 +112,7 @@ def text_report(sm: Summary) -> str:
         # an impedance's level in Ω, never "dB" of ohms
         level = f"{db:.2f} dB" if db is not None and unit != "ohm" else eng(abs(b.midband), "Ω" if unit == "ohm" else unit)
         out.append(f"  midband         {level}  ∠ {phase_deg(b.midband):.1f}°   "
-                   f"(|{sm.quantity}| = {eng(abs(b.midband), unit if unit != 'ohm' else 'Ω')} at "
+                   f"(|{label}| = {eng(abs(b.midband), unit if unit != 'ohm' else 'Ω')} at "
                    f"{'DC' if b.midband_hz == 0 else eng(b.midband_hz, 'Hz')})")
         out.append(f"  f_low  (-3 dB)  {_hz(b.f_low_hz)}")
         out.append(f"  f_high (-3 dB)  {_hz(b.f_high_hz)}")
@@ -92,6 +120,8 @@ def text_report(sm: Summary) -> str:
             out.append(f"  bandwidth       {eng(b.bandwidth_hz, 'Hz')}")
         if sm.gbw_hz is not None:
             out.append(f"  gain-bandwidth  {eng(sm.gbw_hz, 'Hz')}")
+    if sm.psrr_db is not None:
+        out.extend(_psrr_lines(sm))
     for title, v in (("poles", sm.poles), ("zeros", sm.zeros)):
         if v is None:
             continue
@@ -105,6 +135,22 @@ def text_report(sm: Summary) -> str:
         out.extend(f"note: {n}" for n in sm.notes)
     out.extend(closing_lines(c))
     return "\n".join(out)
+
+
+def _psrr_lines(sm: Summary) -> list[str]:
+    """PSRR = 20 log10 |Av / A_supply| at each decade of the sweep and its least value."""
+    from solver.output.report import decibel_text
+    out = ["", f"supply rejection PSRR = 20·log10|Av/A_{sm.supply}|"]
+    f = sm.freqs
+    picks = sorted({int(np.argmin(np.abs(np.log10(f) - d)))
+                    for d in range(int(math.ceil(math.log10(f[0]))), int(math.floor(math.log10(f[-1]))) + 1)}
+                   | {0, len(f) - 1})
+    for k in picks:
+        out.append(f"  {eng(f[k], 'Hz'):>12}   {decibel_text(float(sm.psrr_db[k]))}")
+    worst = _worst_psrr(sm)
+    if worst is not None:
+        out.append(f"  least in the range: {decibel_text(worst[1])} at {eng(worst[0], 'Hz')}")
+    return out
 
 
 def _estimate_lines(sm: Summary) -> list[str]:
@@ -140,13 +186,18 @@ def _estimate_lines(sm: Summary) -> list[str]:
     return out
 
 
-def csv_text(freqs: np.ndarray, h: np.ndarray) -> str:
-    """f_hz, magnitude_db, phase_deg, re, im; empty cells where the response is not finite."""
-    lines = ["f_hz,magnitude_db,phase_deg,re,im"]
-    for f, z in zip(freqs, h):
+def csv_text(freqs: np.ndarray, h: np.ndarray, psrr_db: np.ndarray | None = None) -> str:
+    """f_hz, magnitude_db, phase_deg, re, im (and psrr_db for a supply sweep); empty cells where
+    the response is not finite (psrr_db: inf where the supply's gain is exactly 0)."""
+    lines = ["f_hz,magnitude_db,phase_deg,re,im" + (",psrr_db" if psrr_db is not None else "")]
+    for k, (f, z) in enumerate(zip(freqs, h)):
         if cmath.isfinite(z):
             db = f"{20 * math.log10(abs(z)):.10g}" if z != 0 else ""
-            lines.append(f"{f:.10g},{db},{phase_deg(z):.10g},{z.real:.12g},{z.imag:.12g}")
+            line = f"{f:.10g},{db},{phase_deg(z):.10g},{z.real:.12g},{z.imag:.12g}"
         else:
-            lines.append(f"{f:.10g},,,,")
+            line = f"{f:.10g},,,,"
+        if psrr_db is not None:
+            d = float(psrr_db[k])
+            line += "," + ("" if math.isnan(d) else "inf" if math.isinf(d) and d > 0 else f"{d:.10g}")
+        lines.append(line)
     return "\n".join(lines) + "\n"

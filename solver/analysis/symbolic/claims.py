@@ -341,6 +341,13 @@ def rational_limit(expr, x, to: str):
     import sympy
     if x not in expr.free_symbols:
         return expr
+    in_db = _log_abs(expr, x)  # a dB quantity (CMRR, issue 18): the limit of the ratio inside
+    if in_db is not None:
+        k, inner = in_db
+        lim = rational_limit(inner, x, to)
+        if lim.has(sympy.oo, sympy.zoo, sympy.nan) or lim == 0:
+            return sympy.oo if lim != 0 else -sympy.oo
+        return k * sympy.log(sympy.Abs(lim))
     n, d = sympy.fraction(sympy.cancel(sympy.together(expr)))
     try:
         P, Q = sympy.Poly(n, x), sympy.Poly(d, x)
@@ -360,6 +367,19 @@ def rational_limit(expr, x, to: str):
     if lp > lq:
         return sympy.Integer(0)
     return sympy.cancel(P.coeff_monomial(x ** lp) / Q.coeff_monomial(x ** lq))
+
+
+def _log_abs(expr, x):
+    """(k, R) when expr = k * log(|R|) with k free of x (a ratio in dB), else None."""
+    import sympy
+    if not expr.is_Mul:
+        return None
+    logs = [f for f in expr.args if isinstance(f, sympy.log)]
+    if len(logs) != 1:
+        return None
+    k = expr / logs[0]
+    inner = logs[0].args[0]
+    return None if x in k.free_symbols else (k, inner.args[0] if isinstance(inner, sympy.Abs) else inner)
 
 
 def _degenerate(v) -> bool:
@@ -517,6 +537,10 @@ def check_claims(c: Circuit, frequency_hz: float, search_seconds: float | None =
         if why:
             raise error(cl.loc, f"claim on {cl.quantity}: {why}")
     nums = port_quantities(c, frequency_hz, which=wanted).quantities
+    for cl in c.claims:  # Acm, CMRR are left out when the common-mode drive is singular (issue 18)
+        if cl.quantity not in nums:
+            raise error(cl.loc, f"claim on {cl.quantity}: the circuit with the signal applied common-mode "
+                        "is singular")
     sym = symbolic_port_quantities(c, which=wanted)
     gens = sym[wanted[0]].gens
     ring = Ring(gens)
@@ -531,7 +555,8 @@ def check_claims(c: Circuit, frequency_hz: float, search_seconds: float | None =
         value = nums[cl.quantity]
         exact = L.from_dicts(ring, sq.num, sq.den)
         try:
-            claimed = to_rational(cl.expr, c, ring) if sq.den else None
+            # a dB quantity (CMRR) is compared in dB: the sympy path, never the ratio's polynomials
+            claimed = to_rational(cl.expr, c, ring) if sq.den and cl.quantity not in scenarios.DECIBELS else None
         except NotRational:
             claimed = None
         note, found, complete, tried = "", None, True, (0, 0)
@@ -553,7 +578,7 @@ def check_claims(c: Circuit, frequency_hz: float, search_seconds: float | None =
         holds = is_exact if cl.kind == "exact" else rel <= cl.tolerance
         out.append(Verdict(cl.line, cl.quantity, cl.kind, claim_text(c, cl), holds, is_exact, value, cv, rel,
                            cl.tolerance, found.keys if found else [],
-                           _shown(claimed if is_exact and claimed is not None else sq, dims),
+                           _in_db(cl.quantity, _shown(claimed if is_exact and claimed is not None else sq, dims)),
                            found.words if found else [], complete, note, tried))
     return out
 
@@ -616,6 +641,12 @@ def check(c: Circuit, at: float | None = None, force: bool = False, search_secon
     except PortError as e:
         raise p.fail(explain_singular(p.circuit, f, str(e))) from None
     return Checked(p.circuit, f, verdicts, list(p.warnings), list(p.notes) + notes)
+
+
+def _in_db(quantity: str, shown: str) -> str:
+    """A dB quantity's exact expression is 20*log10(abs(ratio)) around its ratio's form (issue 18)."""
+    from solver.analysis import scenarios
+    return f"20*log10(abs({shown}))" if shown and quantity in scenarios.DECIBELS else shown
 
 
 MAX_SHOWN = 200

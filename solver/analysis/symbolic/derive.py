@@ -10,6 +10,8 @@ from dataclasses import dataclass
 from solver.circuit.model import Circuit
 
 
+from solver.analysis.scenarios import DECIBELS as _DECIBELS  # noqa: E402  (CMRR: a ratio shown in dB)
+
 #: results whose expansion has at most this many terms (a bound from the shared minors) are expanded
 EXACT_TERMS = 6000
 
@@ -44,6 +46,46 @@ class Derived:
     @property
     def symbols(self) -> dict:
         return self.form.symbols
+
+
+class DecibelForm:
+    """A dB quantity (CMRR = 20*log10(abs(Avo/Acm)), issue 18) written around its ratio's form."""
+
+    def __init__(self, ratio):
+        self.ratio = ratio  # forms.Form of the exact ratio, or None: the ratio is unbounded
+
+    def __getattr__(self, attr):  # where, size, kind, num, den, gens ... are the ratio's
+        if attr.startswith("__") or self.__dict__.get("ratio") is None:
+            raise AttributeError(attr)
+        return getattr(self.ratio, attr)
+
+    @property
+    def text(self) -> str:
+        return "oo" if self.ratio is None else f"20*log10(abs({self.ratio.text}))"
+
+    @property
+    def where(self) -> list:
+        return [] if self.ratio is None else self.ratio.where
+
+    @property
+    def size(self) -> int:
+        return 0 if self.ratio is None else self.ratio.size
+
+    @property
+    def symbols(self) -> dict:
+        return {} if self.ratio is None else self.ratio.symbols
+
+    def latex(self) -> str:
+        if self.ratio is None:
+            return r"\infty"
+        head, _, rest = self.ratio.latex().partition("\n")
+        return f"20\\log_{{10}}\\left|{head}\\right|" + ("\n" + rest if rest else "")
+
+    def sympy_text(self, *args, **kw) -> str | None:
+        if self.ratio is None:
+            return "oo"
+        t = self.ratio.sympy_text(*args, **kw)
+        return None if t is None else f"20*log(Abs({t}), 10)"
 
 
 def bias_substitutions(c: Circuit) -> dict:
@@ -176,7 +218,8 @@ def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: f
     nodes = {} if exact_only or not ports else symbolic_port_quantities(c, keep, numeric, which=ports,
                                                                           compact="nodes")
     bounds = {q: F.expanded_terms_bound(n) + F.expanded_terms_bound(d) for q, (n, d) in nodes.items()}
-    want = [q for q in ports if exact_only or bounds[q] <= EXACT_TERMS]
+    # (Acm, CMRR are absent from both when the common-mode drive is singular)
+    want = [q for q in ports if exact_only or bounds.get(q, 0) <= EXACT_TERMS]
     res = symbolic_port_quantities(c, keep, numeric, which=want) if want else {}
     if loop_qs:
         res.update(symbolic_loop_quantities(c, around, keep, numeric, loop_qs))
@@ -185,10 +228,15 @@ def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: f
     gens0 = ["s"] + choose_symbols(c, keep, numeric)
     out = []
     for q in quantities:
+        if q not in res and q not in nodes:  # Acm, CMRR when the common-mode drive makes the circuit singular
+            continue
+        if getattr(res.get(q), "infinite", False):  # CMRR with Acm identically 0
+            out.append(Derived(q, DecibelForm(None)))
+            continue
         if q not in res:  # too big to expand: the shared-minor form alone
             f = F.compact_form(*nodes[q], gens0)
             f.expanded_terms = bounds[q]
-            out.append(Derived(q, f))
+            out.append(Derived(q, DecibelForm(f) if q in _DECIBELS else f))
             continue
         sq = res[q]
         num, den, gens = sq.num, sq.den, sq.gens
@@ -208,5 +256,5 @@ def derive(c: Circuit, quantities, keep=None, numeric=(), limits=(), dominant: f
             f = F.write_form(num, den, gens, expanded=expanded, dims=dims)
             if compact is not None and f.size > max(40, 1.5 * compact.size):  # the shared minors read shorter
                 f = compact
-        out.append(Derived(q, f, pruned))
+        out.append(Derived(q, DecibelForm(f) if q in _DECIBELS else f, pruned))
     return out

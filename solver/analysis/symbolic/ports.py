@@ -73,6 +73,56 @@ class SymbolicQuantity:
         return n / d
 
 
+class DecibelQuantity:
+    """A ratio of two rows in dB (CMRR = 20 log10 |Avo/Acm|): the exact ratio, and its dB form.
+
+    ``ratio`` is the :class:`SymbolicQuantity` of the ratio itself (Avo/Acm), whose
+    ``num``/``den``/``gens`` the dominant-term pruning reads; ``infinite`` is True when the
+    denominator row is identically zero (then so is no ratio: the dB value is +oo).
+    """
+
+    def __init__(self, name: str, ratio: SymbolicQuantity | None):
+        self.name = name
+        self.ratio = ratio
+        self.infinite = ratio is None
+
+    def __getattr__(self, attr):
+        # everything else a SymbolicQuantity offers (rf, ring_terms, ...) is the ratio's
+        if attr.startswith("__") or self.__dict__.get("ratio") is None:
+            raise AttributeError(attr)
+        return getattr(self.ratio, attr)
+
+    @property
+    def nterms(self) -> int:
+        return 0 if self.ratio is None else self.ratio.nterms
+
+    @property
+    def num(self) -> dict:
+        return {} if self.ratio is None else self.ratio.num
+
+    @property
+    def den(self) -> dict:
+        return {} if self.ratio is None else self.ratio.den
+
+    @property
+    def gens(self) -> list[str]:
+        return [S_NAME] if self.ratio is None else self.ratio.gens
+
+    def ratio_expr(self):
+        """The ratio (e.g. Avo/Acm) as a sympy expression; sympy.oo when infinite."""
+        import sympy
+        return sympy.oo if self.ratio is None else self.ratio.expr()
+
+    def expr(self):
+        """20*log10(|ratio|) as a sympy expression (sympy.oo when infinite)."""
+        import sympy
+        r = self.ratio_expr()
+        return r if r == sympy.oo else 20 * sympy.log(sympy.Abs(r), 10)
+
+    def value(self, values: dict, s: complex = 0j) -> complex:
+        return complex(math.inf if self.ratio is None else table.decibels(self.ratio.value(values, s), 1.0), 0.0)
+
+
 def circuit_symbols(c: Circuit) -> list[str]:
     """Every symbol of the small-signal circuit in stamping order (``RC``, ``Q1.gm``, ``VS.rs`` ...)."""
     seen: dict[str, None] = {}
@@ -176,6 +226,8 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
         ``keep`` (when given) lists the symbols that stay symbolic; ``numeric``
         names symbols to replace by their netlist values.
     which : iterable of quantity names or None (all)
+        ``"supply:NAME"`` adds the gain from supply NAME to v_out (the signal zeroed, the
+        load in place), read from the scenario table's configuration for that supply.
     compact : bool or "nodes"
         Return nested, unexpanded sympy expressions instead of expanded ratios; "nodes":
         (numerator, denominator) as :class:`solver.analysis.symbolic.forms.Node` DAGs
@@ -212,8 +264,12 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
     for q in table.quantities(c):
         if which is not None and q not in which:
             continue
+        if q in table.DECIBELS:  # a ratio of two rows: each read as usual, then divided
+            continue
         m = table.chosen(c, q, lambda m: stamped(m).det == 0, base)  # singular for every value
         s = stamped(m)
+        if q in table.DIFFERENTIAL and s.det == 0:  # no common-mode drive (as the numeric engine)
+            continue
         num = s.read(m.num)
         den = s.read(m.den) if m.den is not None else s.det
         if compact == "nodes":
@@ -222,6 +278,35 @@ def symbolic_port_quantities(c: Circuit, keep=None, numeric=(), which=None, comp
             result[q] = num / den
         else:
             result[q] = SymbolicQuantity(q, RationalFunction(num, den, ring).cancel(), kept)
+    for q in which or ():  # a supply's gain to v_out ("supply:VCC"): the table's configuration for it
+        if not q.startswith(table.SUPPLY):
+            continue
+        m = table.supply_measurement(c, q[len(table.SUPPLY):], base)
+        st = stamped(m)
+        num, den = st.read(m.num), st.det
+        if compact == "nodes":
+            result[q] = (num, den)
+        else:
+            result[q] = num / den if domain is not None else \
+                SymbolicQuantity(q, RationalFunction(num, den, ring).cancel(), kept)
+    for q, (a, b) in table.DECIBELS.items():
+        if q not in table.quantities(c) or (which is not None and q not in which):
+            continue
+        parts = symbolic_port_quantities(c, keep, numeric, (a, b), compact)
+        if b not in parts:
+            continue
+        if compact == "nodes":  # the ratio's numerator and denominator as the printer's nodes
+            (na, da), (nb, db) = parts[a], parts[b]
+            result[q] = (na * db, da * nb)
+            continue
+        if compact:
+            import sympy
+            result[q] = 20 * sympy.log(sympy.Abs(parts[a] / parts[b]), 10) if parts[b] != 0 else sympy.oo
+            continue
+        ra, rb = parts[a].rf, parts[b].rf
+        ratio = None if rb.num == 0 else SymbolicQuantity(
+            f"{a}/{b}", RationalFunction(ra.num * rb.den, ra.den * rb.num, ra.ring).cancel(), kept)
+        result[q] = DecibelQuantity(q, ratio)
     return result
 
 

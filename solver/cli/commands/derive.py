@@ -19,6 +19,7 @@ examples:
   portwise derive circuits/mic_preamp.pw all --keep RC,RL,Q1.gm --latex
   portwise derive circuits/mic_preamp.pw Gv --dominant 5% --json
   portwise derive circuits/mic_preamp.pw Rin --expanded
+  portwise derive circuits/loadcell_diffpair.pw --supply VCC --keep RCB,RT,R1,R2
 
 Symbols not kept take their netlist values. --dominant drops, coefficient by
 coefficient of s, the terms whose summed size at the nominal values is within the
@@ -41,8 +42,11 @@ def _names(values) -> list[str]:
 
 def add_arguments(p) -> None:
     p.add_argument("file", help="netlist file (.pw)")
-    p.add_argument("quantity", choices=QUANTITY_CHOICES, metavar="QUANTITY",
-                   help="one of Rin Rout Avo Av Gv Gvo Ai (Zt Zto for a current signal), or all")
+    p.add_argument("quantity", choices=QUANTITY_CHOICES, metavar="QUANTITY", nargs="?",
+                   help="one of Rin Rout Avo Av Gv Gvo Ai (Zt Zto for a current signal; Acm CMRR "
+                   "for a differential signal), or all")
+    p.add_argument("--supply", metavar="NAME", help="derive the gain from this supply to the output (signal "
+                   "zeroed, load in place) instead of a port quantity")
     p.add_argument("--keep", action="append", metavar="NAMES",
                    help="comma-separated symbols to keep symbolic (the others take their values)")
     p.add_argument("--numeric", action="append", metavar="NAMES",
@@ -80,7 +84,6 @@ def run(args) -> int:
     from solver.analysis.pipeline import analysis_frequency, load, prepare
     from solver.analysis.symbolic.claims import parse_limit
     from solver.analysis.symbolic.derive import derive
-    from solver.analysis.symbolic.forms import SYMPY_MAX_TERMS
     from solver.analysis.symbolic.ports import circuit_symbols
     from solver.cli.commands.common import emit_json, frequency, print_warnings
     from solver.diagnostics import error
@@ -95,7 +98,17 @@ def run(args) -> int:
         if check_midband(c):
             raise p.fail(check_midband(c))
         at = 0.0
-    if args.quantity in LOOP_CHOICES:
+    if (args.quantity is None) == (args.supply is None):
+        raise error(None, "give a QUANTITY or --supply NAME (one of the two)")
+    if args.supply is not None:
+        if args.around:
+            raise error(None, "--around goes with a loop quantity, not with --supply")
+        from solver.analysis.scenarios import SUPPLY, supply_names
+        if args.supply not in supply_names(c):
+            raise error(None, f"--supply: no supply '{args.supply}' (supplies: "
+                        f"{', '.join(supply_names(c)) or 'none'})")
+        qs = [SUPPLY + args.supply]
+    elif args.quantity in LOOP_CHOICES:
         if not args.around:
             raise error(None, f"{args.quantity} needs --around NAME (the controlled source of the loop)")
         qs = [args.quantity]
@@ -115,17 +128,25 @@ def run(args) -> int:
     tol = tolerance(args.dominant) if args.dominant is not None else None
     f, _ = analysis_frequency(c, at)
     results = derive(c, qs, keep, numeric, limits, tol, f, args.expand_bias, args.expanded, around=args.around)
+    if not results:
+        raise error(None, f"{args.quantity} is not defined here: the circuit with the signal applied "
+                    "common-mode is singular")
     if args.json:
         from solver.output.derivation import derive_json
-        emit_json(derive_json(results, tol, f, expanded=args.expanded, latex=args.latex, midband=midband))
+        obj = derive_json(results, tol, f, expanded=args.expanded, latex=args.latex, midband=midband)
+        if args.supply is not None:  # the gain from that supply to the output
+            for item in obj.get("quantities", [obj]):
+                item["supply"] = args.supply
+        emit_json(obj)
         return 0
     if midband is not None:
         print("\n".join(midband.lines()))
     for d in results:
+        label = f"A_{args.supply}" if args.supply is not None else d.quantity
         if args.latex:
-            print(f"{d.quantity} = {d.latex}")
+            print(f"{label} = {d.latex}")
         else:
-            print(f"{d.quantity} = {d.plain}")
+            print(f"{label} = {d.plain}")
             for name, text in d.where:
                 print(f"  where {name} = {text}")
         if d.pruned is not None:

@@ -1,13 +1,17 @@
 """portwise solve: port quantities of a netlist at one frequency."""
 from __future__ import annotations
 
-HELP = "port quantities Rin, Rout, Avo, Av, Gv, Gvo, Ai at one frequency"
+HELP = "port quantities Rin, Rout, Avo, Av, Gv, Gvo, Ai (Acm, CMRR, PSRR) at one frequency"
 DESCRIPTION = """\
 Expand every transistor into its small-signal model, solve the MNA system and
 print the port quantities: Rin (input port = the signal's nodes, load in place),
 Rout (output port, load removed, signal zeroed), Avo and Av (v_out/v_in without
 and with the load), Gvo and Gv (v_out/v_sig; Zt = v_out/i_sig for a current
-signal) and Ai = i_load/i_in."""
+signal) and Ai = i_load/i_in. A differential signal (neither node the reference)
+also gives the common-mode gain Acm (1 V from the reference to both signal nodes,
+rs split equally, no load) and CMRR = 20 log10 |Avo/Acm|; every supply its gain to
+the output (signal zeroed, load in place) and PSRR = 20 log10 |Av/A_supply|. With
+a bias solve, the headroom and output swing of the bias point follow."""
 EPILOG = """\
 example:
   portwise solve circuits/mic_preamp.pw --at 10kHz
@@ -40,19 +44,23 @@ def run(args) -> int:
         from solver.diagnostics import error
         raise error(None, "--midband is the band's middle, without a frequency: give --midband or --at, not both")
     result = api.solve(c, at, force=args.force, midband=args.midband)
-    print_warnings(result.warnings)
     c = result.circuit
+    h = None
+    if result.bias is not None:  # headroom and swing from the bias point, at the same frequency
+        from solver.analysis.headroom import headroom
+        h = headroom(c, result.bias, result.frequency_hz)
+    print_warnings(result.warnings + (h.warnings if h is not None else []))
     if args.json:
         obj = result.to_dict()
         if result.bias is not None:
             from solver.output.biasreport import bias_json
-            obj["bias"] = bias_json(result.bias, c)
+            obj["bias"] = bias_json(result.bias, c, h)
             obj["notes"] = result.notes
         emit_json(obj)
     else:
         if result.bias is not None:
-            from solver.output.biasreport import bias_lines
-            result.notes[:0] = [""] + bias_lines(c, result.bias) + ([""] if result.notes else [])
+            from solver.output.biasreport import bias_lines, headroom_lines
+            result.notes[:0] = [""] + bias_lines(c, result.bias) + headroom_lines(h) + ([""] if result.notes else [])
         symbolic = None
         if args.symbolic:
             from solver.analysis.symbolic.quick import quick_symbolic

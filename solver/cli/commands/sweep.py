@@ -15,7 +15,12 @@ EPILOG = """\
 examples:
   portwise sweep circuits/hydrophone_ce_stage.pw --from 1Hz --to 100MHz
   portwise sweep circuits/hydrophone_ce_stage.pw --from 1Hz --to 100MHz --per-decade 40 --plot bode.svg
-  portwise sweep circuits/hydrophone_ce_stage.pw --from 10Hz --to 10MHz --quantity Rin --csv rin.csv --json"""
+  portwise sweep circuits/hydrophone_ce_stage.pw --from 10Hz --to 10MHz --quantity Rin --csv rin.csv --json
+  portwise sweep circuits/contact_pickup_preamp.pw --from 1Hz --to 10MHz --supply VBAT
+
+--supply NAME sweeps the gain from that supply to v_out (the signal zeroed, the load in
+place) instead of a port quantity, and gives the supply rejection PSRR = 20 log10 |Av/A_supply|
+at every point (a psrr_db column in the CSV and the JSON points)."""
 
 from solver.circuit.model import PORT_QUANTITIES as QUANTITY_CHOICES  # noqa: E402
 
@@ -28,7 +33,9 @@ def add_arguments(p) -> None:
     g.add_argument("--points", type=int, metavar="N", help="number of log-spaced points in all")
     g.add_argument("--per-decade", type=int, metavar="N", help="points per decade (default 20)")
     p.add_argument("--quantity", choices=QUANTITY_CHOICES, metavar="Q",
-                   help="Gv (default; Zt for a current signal), Gvo, Av, Avo, Ai, Rin, Rout, Zt, Zto")
+                   help="Gv (default; Zt for a current signal), Gvo, Av, Avo, Ai, Rin, Rout, Zt, Zto, Acm")
+    p.add_argument("--supply", metavar="NAME", help="sweep the gain from this supply to the output and its "
+                   "rejection PSRR = 20 log10 |Av/A_supply| (instead of a port quantity)")
     p.add_argument("--plot", metavar="FILE", help="write a Bode plot (.png or .svg)")
     p.add_argument("--csv", metavar="FILE", help="write f_hz, magnitude_db, phase_deg, re, im")
     from solver.cli.commands.common import add_force, add_overwrite
@@ -68,20 +75,22 @@ def run(args) -> int:
     p = prepare(load(args.file), "ports", "ac", args.force)
     c = p.circuit
     quantity = args.quantity or default_quantity(c)
+    if args.supply is not None and args.quantity is not None:
+        raise error(None, "--supply and --quantity: choose one (--supply sweeps the supply's own gain)")
     freqs = frequencies(f_from, f_to, args.points, args.per_decade)
     if len(freqs) > MAX_POINTS:
         raise error(None, f"the sweep would have {len(freqs)} points (at most {MAX_POINTS})")
     try:
-        sm = analyse(c, quantity, freqs)
+        sm = analyse(c, quantity, freqs, args.supply)
     except ResponseError as e:
-        raise error(None, f"--quantity: {e}") from None
+        raise error(None, f"{'--supply' if args.supply is not None else '--quantity'}: {e}") from None
     print_warnings(p.warnings)
     if args.csv:
-        write_file(args.csv, csv_text(freqs, sm.h), args.overwrite)
+        write_file(args.csv, csv_text(freqs, sm.h, sm.psrr_db), args.overwrite)
     if args.plot:
         from solver.output.plot import bode
         b = sm.band
-        img = bode(freqs, sm.h, plot_fmt, c.title or Path(c.file).stem, quantity,
+        img = bode(freqs, sm.h, plot_fmt, c.title or Path(c.file).stem, sm.quantity,
                    {"f_low": b.f_low_hz, "f_high": b.f_high_hz} if b else None,
                    (summary_json(sm)["summary"]["midband_db"] if b else None))
         write_file(args.plot, img, args.overwrite)
