@@ -140,14 +140,14 @@ def problems(events: list[dict]) -> list[str]:
 
 
 def not_blank(png: bytes) -> tuple[int, float]:
-    """(distinct colours, fraction of pixels unlike the corner) of a PNG screenshot."""
+    """(grey levels in use, fraction of pixels unlike the corner) of a PNG screenshot."""
     Image = pytest.importorskip("PIL.Image")  # Pillow comes with matplotlib (the test extra)
-    im = Image.open(io.BytesIO(png)).convert("RGB")
-    small = im.resize((im.width // 4, im.height // 4))
-    px = list(small.get_flattened_data() if hasattr(small, "get_flattened_data") else small.getdata())
-    bg = px[0]
-    differ = sum(1 for p in px if sum(abs(x - y) for x, y in zip(p, bg)) > 60)
-    return len(set(px)), differ / len(px)
+    im = Image.open(io.BytesIO(png)).convert("L")
+    small = im.resize((max(1, im.width // 8), max(1, im.height // 8)))
+    hist = small.histogram()
+    bg = small.getpixel((0, 0))
+    differ = sum(n for level, n in enumerate(hist) if abs(level - bg) > 24)
+    return sum(1 for n in hist if n), differ / (small.width * small.height)
 
 
 class _Text(HTMLParser):
@@ -200,17 +200,19 @@ def test_every_bundled_example_renders_in_chromium(reports, tmp_path):
         dt.session = dt.call("Target.attachToTarget", session=False, targetId=target, flatten=True)["sessionId"]
         for domain in ("Page", "Runtime", "Log", "Network"):
             dt.call(f"{domain}.enable")
-        dt.call("Emulation.setDeviceMetricsOverride", width=1000, height=1400, deviceScaleFactor=1, mobile=False)
+        dt.call("Emulation.setDeviceMetricsOverride", width=900, height=1200, deviceScaleFactor=1, mobile=False)
         for src, path, data, html in reports:
             dt.events.clear()
             dt.call("Page.navigate", url=path.as_uri())
             dt.wait_event("Page.loadEventFired")
-            text = dt.call("Runtime.evaluate", expression="document.body.innerText", returnByValue=True)
-            text = text["result"]["value"]
-            dom = dt.call("Runtime.evaluate", expression="document.documentElement.outerHTML",
-                          returnByValue=True)["result"]["value"]
+            page = dt.call("Runtime.evaluate", returnByValue=True, expression=(
+                "({text: document.body.innerText, dom: document.documentElement.outerHTML, "
+                "sized: [...document.querySelectorAll('math')].every(m => m.getBoundingClientRect().width > 0)})"))
+            page = page["result"]["value"]
+            text, dom = page["text"], page["dom"]
             shot = base64.b64decode(dt.call("Page.captureScreenshot", format="png")["data"])
-            pdf = base64.b64decode(dt.call("Page.printToPDF", printBackground=True)["data"])
+            pdf = base64.b64decode(dt.call("Page.printToPDF", printBackground=True, generateTaggedPDF=False,
+                                           generateDocumentOutline=False)["data"])
             assert problems(dt.events) == [], src.name
             title = data["sections"]["netlist"]["title"]
             assert title in text, src.name
@@ -221,10 +223,7 @@ def test_every_bundled_example_renders_in_chromium(reports, tmp_path):
             colours, inked = not_blank(shot)
             assert colours > 8 and inked > 0.01, (src.name, colours, inked)
             assert pdf.startswith(b"%PDF-") and pdf.count(b"/Type /Page") >= 2, src.name
-            if "<math" in html:  # MathML laid out natively: every formula has a size on the page
-                sized = dt.call("Runtime.evaluate", returnByValue=True, expression=(
-                    "[...document.querySelectorAll('math')].every(m => m.getBoundingClientRect().width > 0)"))
-                assert sized["result"]["value"] is True, src.name
+            assert page["sized"] is True, src.name   # MathML laid out natively: every formula has a size
         # the dark preference darkens the page (the light page's corner is near white)
         dt.call("Emulation.setEmulatedMedia", features=[{"name": "prefers-color-scheme", "value": "dark"}])
         dt.call("Page.navigate", url=reports[0][1].as_uri())
@@ -247,3 +246,11 @@ def test_dump_dom_text_matches_the_file(reports, tmp_path):
     dumped = words(p.stdout)
     assert dumped == words(html)       # the browser's DOM holds exactly the text we wrote
     assert "Frequency response" in dumped and "hydrophone receiver, CE gain stage" in dumped
+
+
+def test_the_blank_check_sees_a_blank_screenshot():
+    Image = pytest.importorskip("PIL.Image")
+    buf = io.BytesIO()
+    Image.new("RGB", (400, 300), (253, 253, 251)).save(buf, format="PNG")
+    colours, inked = not_blank(buf.getvalue())
+    assert colours == 1 and inked == 0.0
