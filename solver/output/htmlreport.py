@@ -383,11 +383,14 @@ def claims_section(ctx: Context) -> Section | None:
               Num(err, "", text=f"{100 * err:.3g} %") if math.isfinite(err) else "∞",
               Raw(f'<span class="{"ok" if v.holds else "bad"}">{escape(word)}</span>'))
         if not v.exact:
-            when = [w.replace(" -> oo", " → ∞").replace(" -> 0", " → 0") for w in v.exact_when]
+            words = getattr(v, "exact_when_words", None)  # as a designer says it, where the check gives it
+            when = list(words) if words else [w.replace(" -> oo", " → ∞").replace(" -> 0", " → 0")
+                                              for w in v.exact_when]
             text = ("exact when " + "; or ".join(when)) if when else \
                 "no single limit or pair of limits makes it exact"
             notes.append(f"<li>line {v.line}: {escape(text)}"
-                         + (_formula(v.exact_expression, v.quantity) if v.exact_expression else "") + "</li>")
+                         + ("; the exact quantity: " + _formula(v.exact_expression, v.quantity)
+                            if v.exact_expression else "") + "</li>")
     ok = sum(v.holds for v in verdicts)
     body = [para(f"{ok} of {len(verdicts)} claim(s) hold at {'DC' if f == 0 else eng(f, 'Hz')}."), t.html()]
     if notes:
