@@ -467,7 +467,7 @@ def twoport(circuit: Circuit | str | Path, at: float, z0: float = 50.0, force: b
     return TwoPortResult(c, tp, p.warnings)
 
 
-# --- tolerances, Monte Carlo and part values (issue 14) ------------------------------------------
+# --- tolerances, Monte Carlo and part values ------------------------------------------
 def _circuit(circuit) -> Circuit:
     return circuit if isinstance(circuit, Circuit) else load(circuit)
 
@@ -546,7 +546,7 @@ def tune(circuit: Circuit | str | Path, quantity: str, target: float, vary: str,
         return _wrap("tune", run(_circuit(circuit), quantity, target, vary, series, at, force))
 
 
-# --- feedback: portwise loop (issue 15) ------------------------------------------------------------
+# --- feedback: portwise loop ------------------------------------------------------------
 def loop(circuit: Circuit | str | Path, around: str | None = None, at: float | None = None,
          f_from: float | None = None, f_to: float | None = None, points: int | None = None,
          break_node: str | None = None, toward: list[str] | None = None, force: bool = False):

@@ -141,6 +141,16 @@ def scenario(c: Circuit, quantity: str) -> Scenario:
     if quantity in table.DECIBELS:
         raise ResponseError(f"{quantity} is the ratio of {' and '.join(table.DECIBELS[quantity])} in dB: "
                             "sweep those two (or a supply's rejection with --supply)")
+    return measured_scenario(c, quantity, small_signal_elements(c))
+
+
+def measured_scenario(c: Circuit, quantity: str, base: list) -> Scenario:
+    """The scenario table's measurement of ``quantity`` on the element list ``base``, stamped.
+
+    Of Rout's two measurements the first whose system is not singular at :data:`PROBE_S`
+    (:data:`solver.analysis.scenarios.ROUT_ORDER`); :func:`scenario` is this on the
+    small-signal network after checking the quantity is defined.
+    """
     systems = {}
 
     def stamped(m):
@@ -155,7 +165,7 @@ def scenario(c: Circuit, quantity: str) -> Scenario:
         except SingularSystem:
             return True
 
-    m = table.chosen(c, quantity, singular, small_signal_elements(c))
+    m = table.chosen(c, quantity, singular, base)
     sys_ = stamped(m)
     return Scenario(quantity, sys_, _readout(sys_, m.num), None if m.den is None else _readout(sys_, m.den),
                     m.config.drive == "common")

@@ -226,31 +226,9 @@ def return_ratio(els: list[Element], ground, src: Element, freqs) -> np.ndarray:
         return -src.value * (x @ rg + s * (x @ rc))
 
 
-def _scenario(c: Circuit, quantity: str, base: list[Element]) -> fr.Scenario:
-    """The scenario table's measurement of ``quantity`` on the element list ``base``."""
-    systems = {}
-
-    def stamped(m):
-        if m.config.key not in systems:
-            systems[m.config.key] = assemble(list(m.config.elements), c.ground)
-        return systems[m.config.key]
-
-    def singular(m):
-        try:
-            stamped(m).solve(fr.PROBE_S)
-            return False
-        except SingularSystem:
-            return True
-
-    m = table.chosen(c, quantity, singular, base)
-    sys_ = stamped(m)
-    return fr.Scenario(quantity, sys_, fr._readout(sys_, m.num),
-                       None if m.den is None else fr._readout(sys_, m.den))
-
-
 def _quantity(c: Circuit, quantity: str, base: list[Element], freqs) -> np.ndarray:
     try:
-        return fr.response(_scenario(c, quantity, base), freqs)
+        return fr.response(fr.measured_scenario(c, quantity, base), freqs)
     except SingularSystem:
         return np.full(len(freqs), complex(math.nan, math.nan))
 

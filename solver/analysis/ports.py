@@ -80,17 +80,20 @@ class _Solves:
             self.done[key] = (system, system.solve(self.s))
         return self.done[key]
 
+    def singular(self, m: sc.Measurement) -> bool:
+        """True when the measurement's system is singular (the table then tries the next one)."""
+        try:
+            self(m)
+            return False
+        except SingularSystem:
+            return True
+
 
 def measure(c: Circuit, quantity: str, s: complex, solves: _Solves | None = None) -> complex:
     """One port quantity at complex frequency s (raises SingularSystem, QuantityError)."""
     solves = solves or _Solves(c, s)
 
-    def singular(m):
-        try:
-            solves(m)
-            return False
-        except SingularSystem:
-            return True
+    singular = solves.singular
 
     if quantity in sc.DECIBELS:
         num, den = (measure(c, q, s, solves) for q in sc.DECIBELS[quantity])

@@ -252,12 +252,7 @@ def sensitivity(circuit: Circuit, quantities=None, at: float | None = None, forc
     s = 2j * math.pi * f
     solves = _Solves(bc, s)
 
-    def singular(m):
-        try:
-            solves(m)
-            return False
-        except SingularSystem:
-            return True
+    singular = solves.singular
     biased = pipeline.needs_bias_solve(c)
     through = dc_knobs(c) if biased else []
     through += [k for k in device_knobs(c) if k.name not in {t.name for t in through}]

@@ -145,14 +145,9 @@ class Evaluator:
         bc = self.circuit
         solves = _Solves(bc, self.s)
 
-        def singular(m):
-            try:
-                solves(m)
-                return False
-            except SingularSystem:
-                return True
+        singular = solves.singular
 
-        # a ratio in dB (CMRR, issue 18) is formed from its two rows' samples
+        # a ratio in dB (CMRR) is formed from its two rows' samples
         rows = [q for q in self.quantities if q not in sc.DECIBELS]
         rows += [r for q in self.quantities if q in sc.DECIBELS for r in sc.DECIBELS[q] if r not in rows]
         self.measurements = {q: sc.chosen(bc, q, singular, solves.base) for q in rows}

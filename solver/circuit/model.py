@@ -18,7 +18,7 @@ from solver.language.expr import Expr
 #: the port quantities a claim (and every analysis) may name; what each one measures is the
 #: scenario table's business (solver.analysis.scenarios), which has one row per name
 PORT_QUANTITIES = ("Rin", "Rout", "Avo", "Av", "Gv", "Gvo", "Zt", "Zto", "Ai")
-#: a differential signal's common-mode gain and rejection ratio (issue 18): Acm is a row of the
+#: a differential signal's common-mode gain and rejection ratio: Acm is a row of the
 #: scenario table, CMRR = 20 log10 |Avo/Acm| in dB is derived from two rows
 PORT_QUANTITIES += ("Acm", "CMRR")
 

@@ -341,7 +341,7 @@ def rational_limit(expr, x, to: str):
     import sympy
     if x not in expr.free_symbols:
         return expr
-    in_db = _log_abs(expr, x)  # a dB quantity (CMRR, issue 18): the limit of the ratio inside
+    in_db = _log_abs(expr, x)  # a dB quantity (CMRR): the limit of the ratio inside
     if in_db is not None:
         k, inner = in_db
         lim = rational_limit(inner, x, to)
@@ -537,7 +537,7 @@ def check_claims(c: Circuit, frequency_hz: float, search_seconds: float | None =
         if why:
             raise error(cl.loc, f"claim on {cl.quantity}: {why}")
     nums = port_quantities(c, frequency_hz, which=wanted).quantities
-    for cl in c.claims:  # Acm, CMRR are left out when the common-mode drive is singular (issue 18)
+    for cl in c.claims:  # Acm, CMRR are left out when the common-mode drive is singular
         if cl.quantity not in nums:
             raise error(cl.loc, f"claim on {cl.quantity}: the circuit with the signal applied common-mode "
                         "is singular")
@@ -644,7 +644,7 @@ def check(c: Circuit, at: float | None = None, force: bool = False, search_secon
 
 
 def _in_db(quantity: str, shown: str) -> str:
-    """A dB quantity's exact expression is 20*log10(abs(ratio)) around its ratio's form (issue 18)."""
+    """A dB quantity's exact expression is 20*log10(abs(ratio)) around its ratio's form."""
     from solver.analysis import scenarios
     return f"20*log10(abs({shown}))" if shown and quantity in scenarios.DECIBELS else shown
 

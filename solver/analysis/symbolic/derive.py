@@ -49,7 +49,7 @@ class Derived:
 
 
 class DecibelForm:
-    """A dB quantity (CMRR = 20*log10(abs(Avo/Acm)), issue 18) written around its ratio's form."""
+    """A dB quantity (CMRR = 20*log10(abs(Avo/Acm))) written around its ratio's form."""
 
     def __init__(self, ratio):
         self.ratio = ratio  # forms.Form of the exact ratio, or None: the ratio is unbounded
