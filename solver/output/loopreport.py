@@ -221,12 +221,11 @@ def loop_plot(a: LoopAnalysis, fmt: str = "png", title: str = "") -> bytes:
 
     from matplotlib.figure import Figure
 
-    from solver.output.plot import ACCENT, GRID, TRACE
+    from solver.output.plot import ACCENT, GRID, TRACE, style_axes, unwrapped_phase
     freqs, h = np.asarray(a.freqs, float), np.asarray(a.T, complex)
     with np.errstate(all="ignore"):
         mag = 20 * np.log10(np.abs(h))
-    phase = np.degrees(np.unwrap(np.angle(np.where(np.isfinite(h), h, 1.0))))
-    phase = np.where(np.isfinite(h), phase, np.nan)
+    phase = unwrapped_phase(h)
     fig = Figure(figsize=(7.5, 6.0), dpi=100)
     ax_m, ax_p = fig.subplots(2, 1, sharex=True)
     ax_m.semilogx(freqs, mag, color=TRACE, linewidth=1.6)
@@ -235,10 +234,7 @@ def loop_plot(a: LoopAnalysis, fmt: str = "png", title: str = "") -> bytes:
     ax_m.set_ylabel("|T| (dB)")
     ax_p.set_ylabel("∠T (°)")
     ax_p.set_xlabel("frequency (Hz)")
-    for ax in (ax_m, ax_p):
-        ax.grid(True, which="both", color=GRID, linewidth=0.6)
-        for side in ("top", "right"):
-            ax.spines[side].set_visible(False)
+    style_axes(ax_m, ax_p)
     finite = phase[np.isfinite(phase)]
     if finite.size:  # the -180° lines the unwrapped phase comes near
         for k in range(int(np.floor((finite.min() - 180) / 360)), int(np.ceil((finite.max() - 180) / 360)) + 1):

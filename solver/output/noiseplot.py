@@ -10,7 +10,7 @@ import math
 
 import numpy as np
 
-from solver.output.plot import ACCENT, GRID, TRACE
+from solver.output.plot import ACCENT, TRACE, style_axes
 
 
 def noise_plot(freqs, input_density, nf_db, fmt: str = "png", title: str = "", unit: str = "V/√Hz",
@@ -72,10 +72,7 @@ def noise_plot(freqs, input_density, nf_db, fmt: str = "png", title: str = "", u
     ax_n.set_xscale("log")
     ax_n.set_ylabel("noise figure (dB)")
     ax_n.set_xlabel("frequency (Hz)")
-    for ax in (ax_d, ax_n):
-        ax.grid(True, which="both", color=GRID, linewidth=0.6)
-        for side in ("top", "right"):
-            ax.spines[side].set_visible(False)
+    style_axes(ax_d, ax_n)
     if mark_hz is not None and math.isfinite(mark_hz) and mark_hz > 0:
         for ax in (ax_d, ax_n):
             ax.axvline(mark_hz, color=ACCENT, linestyle="--", linewidth=1.0)

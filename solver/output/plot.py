@@ -62,6 +62,32 @@ def bode(freqs, h, fmt: str = "png", title: str = "", quantity: str = "Gv",
 IMPEDANCES = ("Rin", "Rout", "Zt", "Zto")
 
 
+def unwrapped_phase(h) -> np.ndarray:
+    """The phase of ``h`` in degrees, unwrapped and shifted by whole turns so that it starts in
+    (-180°, 180°]; nan where ``h`` is not finite. Every plot of ours draws phase this way.
+
+    Examples
+    --------
+    >>> unwrapped_phase(np.array([1j, -1, -1j, 1])).tolist()
+    [90.0, 180.0, 270.0, 360.0]
+    """
+    h = np.asarray(h, complex)
+    phase = np.degrees(np.unwrap(np.angle(np.where(np.isfinite(h), h, 1.0))))
+    phase = np.where(np.isfinite(h), phase, np.nan)
+    finite = phase[np.isfinite(phase)]
+    if finite.size:
+        phase = phase - 360.0 * math.ceil((finite[0] - 180.0) / 360.0)
+    return phase
+
+
+def style_axes(*axes) -> None:
+    """Our plot style on each axis: a light grid on both scales, no top and right frame."""
+    for ax in axes:
+        ax.grid(True, which="both", color=GRID, linewidth=0.6)
+        for side in ("top", "right"):
+            ax.spines[side].set_visible(False)
+
+
 def figure(freqs, h, title: str = "", quantity: str = "Gv",
            corners: dict[str, float | None] | None = None, reference_db: float | None = None):
     """The Bode figure itself (a :class:`matplotlib.figure.Figure`), as :func:`bode` renders it.
@@ -79,11 +105,7 @@ def figure(freqs, h, title: str = "", quantity: str = "Gv",
     ohms = quantity in IMPEDANCES
     with np.errstate(all="ignore"):
         mag = np.abs(h) if ohms else 20 * np.log10(np.abs(h))
-    phase = np.degrees(np.unwrap(np.angle(np.where(np.isfinite(h), h, 1.0))))
-    phase = np.where(np.isfinite(h), phase, np.nan)
-    finite = phase[np.isfinite(phase)]
-    if finite.size:  # the unwrapped curve, shifted by whole turns so that it starts in (-180°, 180°]
-        phase = phase - 360.0 * math.ceil((finite[0] - 180.0) / 360.0)
+    phase = unwrapped_phase(h)
     fig = Figure(figsize=(7.5, 6.0), dpi=100)
     ax_m, ax_p = fig.subplots(2, 1, sharex=True)
     (ax_m.loglog if ohms else ax_m.semilogx)(freqs, mag, color=TRACE, linewidth=1.6)
@@ -91,10 +113,7 @@ def figure(freqs, h, title: str = "", quantity: str = "Gv",
     ax_m.set_ylabel(f"|{quantity}| (Ω)" if ohms else f"|{quantity}| (dB)")
     ax_p.set_ylabel("phase (°)")
     ax_p.set_xlabel("frequency (Hz)")
-    for ax in (ax_m, ax_p):
-        ax.grid(True, which="both", color=GRID, linewidth=0.6)
-        for side in ("top", "right"):
-            ax.spines[side].set_visible(False)
+    style_axes(ax_m, ax_p)
     labels = []
     for key, label in (("f_low", "f_L"), ("f_high", "f_H")):
         f = (corners or {}).get(key)
