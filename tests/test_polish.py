@@ -436,3 +436,32 @@ def test_plot_phase_starts_in_the_half_open_interval():
     line = figure(f, h).axes[1].get_lines()[0]
     y = line.get_ydata()
     assert -180 < y[0] <= 180 and y[0] == pytest.approx(180.0, abs=1.0)
+
+
+# --- an input that draws no current -------------------------------------------------------------
+# An op-amp's input draws no current in our model (a controlled source between the inputs, no
+# input resistance), so the non-inverting stage's Rin = v_in/i_in is infinite and Ai too:
+# Sedra & Smith, Microelectronic Circuits, the non-inverting configuration (ideal input
+# resistance infinite). Round-off must not turn that into a huge number of random sign.
+NONINVERTING = """\
+signal VB (p, gnd) 2 mV, rs=350
+opamp U1 (out, p, fb) gain=200k
+resistor R1 (fb, gnd) 1k
+resistor R2 (out, fb) 99k
+load RL (out, gnd) 10k
+"""
+
+
+def test_an_input_that_draws_no_current_has_infinite_rin():
+    import numpy as np
+    from solver.analysis import frequency
+    c = solver.loads(NONINVERTING)
+    r = solver.solve(c)
+    assert r.quantities["Rin"] == complex(float("inf"), 0)
+    assert r.quantities["Ai"] == complex(float("inf"), 0)
+    assert json.loads(r.to_json())["quantities"]["Rin"]["re"] == "inf"
+    h = frequency.response(frequency.scenario(c, "Rin"), np.array([10.0, 1e3, 1e5]))
+    assert np.all(np.isinf(h.real))
+    # a real input current is never snapped: 1 MΩ from p to gnd gives Rin = 1 MΩ
+    r2 = solver.solve(solver.loads(NONINVERTING + "resistor RP (p, gnd) 1M\n"))
+    assert r2.quantities["Rin"].real == pytest.approx(1e6, rel=1e-9)

@@ -80,6 +80,8 @@ class Scenario:
     #: a common-mode or supply read-out: values at the round-off level of the solution are 0
     #: (the rule of solver.analysis.ports.CANCELLED)
     cancel: bool = False
+    #: the denominator is branch currents only (solver.analysis.scenarios.branch_only)
+    den_currents: bool = False
 
     @property
     def size(self) -> int:
@@ -168,7 +170,7 @@ def measured_scenario(c: Circuit, quantity: str, base: list) -> Scenario:
     m = table.chosen(c, quantity, singular, base)
     sys_ = stamped(m)
     return Scenario(quantity, sys_, _readout(sys_, m.num), None if m.den is None else _readout(sys_, m.den),
-                    m.config.drive == "common")
+                    m.config.drive == "common", m.den is not None and table.branch_only(m.den))
 
 
 def supply_scenario(c: Circuit, name: str) -> Scenario:
@@ -529,6 +531,10 @@ def response(sc: Scenario, freqs: np.ndarray, dense: bool | None = None) -> np.n
     if sc.den is None:
         return num
     den = sc.den(x)
+    if sc.den_currents:  # the rule of solver.analysis.scenarios.branch_only
+        n = len(sc.system.stamper.nodes)
+        scale = np.max(np.abs(x[:, n:]), axis=1) if x.shape[1] > n else np.zeros(len(s))
+        den = np.where(np.abs(den) <= table.CANCELLED * scale, 0j, den)
     with np.errstate(all="ignore"):
         return np.where(den != 0, num / np.where(den != 0, den, 1), np.complex128(complex(np.inf, 0)))
 

@@ -45,15 +45,21 @@ def read(system: System, x, terms, cancel: bool = False) -> complex:
     """The value of a read-out (a tuple of :class:`~solver.analysis.scenarios.Term`) in solution x.
 
     ``cancel``: a result at the round-off level of the solution (:data:`CANCELLED`) is 0, as a
-    perfectly matched pair's common-mode output is.
+    perfectly matched pair's common-mode output is; a read-out of branch currents only is held
+    against the solution's branch currents the same way (:func:`~solver.analysis.scenarios.branch_only`).
     """
-    total = 0j
-    if cancel:
+    if cancel or sc.branch_only(terms):
         import numpy as np
         n = len(system.stamper.nodes)
-        scale = float(np.max(np.abs(x[:n]))) if n else 0.0
-        value = read(system, x, terms)
+        part = x[:n] if cancel else x[n:]  # voltages against voltages, currents against currents
+        scale = float(np.max(np.abs(part))) if len(part) else 0.0
+        value = _sum(system, x, terms)
         return 0j if abs(value) <= CANCELLED * scale else value
+    return _sum(system, x, terms)
+
+
+def _sum(system: System, x, terms) -> complex:
+    total = 0j
     for t in terms:
         if t.kind == "node":
             v = system.voltage(x, t.name)

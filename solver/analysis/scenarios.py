@@ -85,6 +85,16 @@ TEST = "{test}"
 #: system's conditioning); 1e-11 leaves a margin of a hundred. A real mismatch gives a
 #: common-mode gain many decades above it (common practice, no source).
 CANCELLED = 1e-11
+
+
+def branch_only(terms) -> bool:
+    """True for a read-out made only of source branch currents (i_in through the signal, say).
+
+    Such a current at the round-off level of the solution's largest branch current is 0 (the
+    :data:`CANCELLED` rule, read against currents): an ideal op-amp's input draws none, so
+    Rin is infinite rather than a huge number of random sign.
+    """
+    return bool(terms) and all(t.kind == "branch" for t in terms)
 #: the drive prefix of a supply's configuration ("supply:VCC")
 SUPPLY = "supply:"
 #: the Rout measurements, in the order they are tried: the first whose system is not singular
