@@ -217,11 +217,10 @@ def loop_plot(a: LoopAnalysis, fmt: str = "png", title: str = "") -> bytes:
     with the crossover, the phase margin and the -180° line marked."""
     import matplotlib
     matplotlib.use("Agg", force=True)
-    import io
 
     from matplotlib.figure import Figure
 
-    from solver.output.plot import ACCENT, GRID, TRACE, style_axes, unwrapped_phase
+    from solver.output.plot import ACCENT, GRID, TRACE, encoded, finish, style_axes, unwrapped_phase
     freqs, h = np.asarray(a.freqs, float), np.asarray(a.T, complex)
     with np.errstate(all="ignore"):
         mag = 20 * np.log10(np.abs(h))
@@ -257,10 +256,5 @@ def loop_plot(a: LoopAnalysis, fmt: str = "png", title: str = "") -> bytes:
             ax.axvline(f180, color=ACCENT, linestyle=":", linewidth=1.0)
         ax_m.annotate(f"GM = {m.gain_margin_db:.1f} dB", xy=(f180, 0.0), xycoords=("data", "axes fraction"),
                       xytext=(4, 6), textcoords="offset points", color=ACCENT, fontsize=9)
-    if title:
-        fig.suptitle(title, fontsize=11)
-    fig.tight_layout()
-    buf = io.BytesIO()
-    with matplotlib.rc_context({"svg.fonttype": "none"}):
-        fig.savefig(buf, format=fmt)
-    return buf.getvalue()
+    finish(fig, title)
+    return encoded(fig, fmt)

@@ -5,12 +5,11 @@ matplotlib is imported here only, with the Agg backend.
 """
 from __future__ import annotations
 
-import io
 import math
 
 import numpy as np
 
-from solver.output.plot import ACCENT, TRACE, style_axes
+from solver.output.plot import ACCENT, TRACE, encoded, finish, style_axes
 
 
 def noise_plot(freqs, input_density, nf_db, fmt: str = "png", title: str = "", unit: str = "V/√Hz",
@@ -78,10 +77,5 @@ def noise_plot(freqs, input_density, nf_db, fmt: str = "png", title: str = "", u
             ax.axvline(mark_hz, color=ACCENT, linestyle="--", linewidth=1.0)
         ax_d.annotate(f"{eng(mark_hz, 'Hz', 3)}", xy=(mark_hz, 1.0), xycoords=("data", "axes fraction"),
                       xytext=(4, -12), textcoords="offset points", color=ACCENT, fontsize=9)
-    if title:
-        fig.suptitle(title, fontsize=11)
-    fig.tight_layout()
-    buf = io.BytesIO()
-    with matplotlib.rc_context({"svg.fonttype": "none"}):
-        fig.savefig(buf, format=fmt)
-    return buf.getvalue()
+    finish(fig, title)
+    return encoded(fig, fmt)

@@ -51,9 +51,21 @@ def bode(freqs, h, fmt: str = "png", title: str = "", quantity: str = "Gv",
     """
     import matplotlib
     matplotlib.use("Agg", force=True)
-    fig = figure(freqs, h, title, quantity, corners, reference_db)
+    return encoded(figure(freqs, h, title, quantity, corners, reference_db), fmt)
+
+
+def finish(fig, title: str = "") -> None:
+    """The figure's title (if any) and a tight layout, as every plot of ours has them."""
+    if title:
+        fig.suptitle(title, fontsize=11)
+    fig.tight_layout()
+
+
+def encoded(fig, fmt: str) -> bytes:
+    """The figure as PNG or SVG bytes; SVG text stays text (searchable, editable)."""
+    import matplotlib
     buf = io.BytesIO()
-    with matplotlib.rc_context({"svg.fonttype": "none"}):  # SVG text stays text (searchable, editable)
+    with matplotlib.rc_context({"svg.fonttype": "none"}):
         fig.savefig(buf, format=fmt)
     return buf.getvalue()
 
@@ -127,7 +139,5 @@ def figure(freqs, h, title: str = "", quantity: str = "Gv",
         labels.append(f"{label} = {eng(f, 'Hz', 3)}")
     if labels:  # above the panel: the plotting area is the curve's alone
         ax_m.set_title("   ".join(labels), loc="left", color=ACCENT, fontsize=9)
-    if title:
-        fig.suptitle(title, fontsize=11)
-    fig.tight_layout()
+    finish(fig, title)
     return fig
