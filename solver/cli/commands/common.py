@@ -65,6 +65,17 @@ def add_overwrite(p) -> None:
     p.add_argument("--overwrite", action="store_true", help="replace output files that exist")
 
 
+def plot_format(path: str | None) -> str | None:
+    """The image format of a --plot file name ("png" or "svg"; None without one); another ending
+    is bad input."""
+    if not path:
+        return None
+    fmt = Path(path).suffix.lower().lstrip(".")
+    if fmt not in ("png", "svg"):
+        raise error(None, "--plot: the file name ends in .png or .svg")
+    return fmt
+
+
 def refuse_existing(paths, overwrite: bool) -> None:
     """Before any work: an output file that exists is an error unless ``overwrite``."""
     for out in paths:

@@ -26,6 +26,7 @@ MAX_POINTS = 100_000
 
 
 def add_arguments(p) -> None:
+    from solver.cli.commands.common import add_force, add_overwrite
     p.add_argument("file", help="netlist file (.pw)")
     g = p.add_mutually_exclusive_group(required=True)
     g.add_argument("--around", metavar="NAME", help="the controlled source: Q1, M1, U1, G1 (or Q1.gm)")
@@ -39,9 +40,8 @@ def add_arguments(p) -> None:
     p.add_argument("--points", type=int, metavar="N", help="sweep points in all (default 20 per decade)")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
     p.add_argument("--plot", metavar="FILE", help="with a sweep: write |T| and ∠T (.png or .svg)")
-    p.add_argument("--overwrite", action="store_true", help="replace a plot file that exists")
-    p.add_argument("--force", action="store_true",
-                   help="analyse a transistor outside its amplifying region (the output warns)")
+    add_overwrite(p)
+    add_force(p)
 
 
 def run(args) -> int:
@@ -49,7 +49,7 @@ def run(args) -> int:
     from pathlib import Path
 
     from solver.api import loop
-    from solver.cli.commands.common import frequency, print_warnings, write_file
+    from solver.cli.commands.common import frequency, plot_format, print_warnings, refuse_existing, write_file
     from solver.diagnostics import error
     at = frequency(args.at) if args.at is not None else None
     sweep = args.f_from is not None or args.f_to is not None
@@ -70,23 +70,19 @@ def run(args) -> int:
     if args.toward and not args.break_node:
         raise error(None, "--toward goes with --break")
     toward = [n.strip() for v in args.toward or () for n in v.split(",") if n.strip()] or None
-    replace = args.overwrite  # --force is the analysis' only (the same on every command)
     fmt = None
     if args.plot:
         if not sweep:
             raise error(None, "--plot needs a sweep (--from and --to)")
-        fmt = Path(args.plot).suffix.lower().lstrip(".")
-        if fmt not in ("png", "svg"):
-            raise error(None, "--plot: the file name ends in .png or .svg")
-        if Path(args.plot).exists() and not replace:
-            raise error(None, f"'{args.plot}' exists; use --overwrite to replace it")
+        fmt = plot_format(args.plot)
+        refuse_existing([args.plot], args.overwrite)  # before the work, not after it
     r = loop(args.file, around=args.around, at=at, f_from=f_from, f_to=f_to, points=args.points,
              break_node=args.break_node, toward=toward, force=args.force)
     print_warnings(r.warnings)
     if args.plot:
         from solver.output.loopreport import loop_plot
         c = r.circuit
-        write_file(args.plot, loop_plot(r.analysis, fmt, c.title or Path(c.file).stem), replace)
+        write_file(args.plot, loop_plot(r.analysis, fmt, c.title or Path(c.file).stem), args.overwrite)
     if args.json:
         sys.stdout.write(r.to_json() + "\n")
     else:

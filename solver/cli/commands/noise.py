@@ -26,6 +26,7 @@ MAX_POINTS = 1_000_000
 
 
 def add_arguments(p) -> None:
+    from solver.cli.commands.common import add_force, add_overwrite
     p.add_argument("file", help="netlist file (.pw)")
     p.add_argument("--from", dest="f_from", metavar="F1", help="lowest frequency of the band (default 10Hz)")
     p.add_argument("--to", dest="f_to", metavar="F2", help="highest frequency of the band (default 100kHz)")
@@ -34,16 +35,15 @@ def add_arguments(p) -> None:
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
     p.add_argument("--csv", metavar="FILE", help="write f_hz, densities, en, in, correlation, NF, optimum per point")
     p.add_argument("--plot", metavar="FILE", help="write the input-referred density and NF (.png or .svg)")
-    p.add_argument("--overwrite", action="store_true", help="replace output files that exist")
-    p.add_argument("--force", action="store_true", help="analyse even when a bias-solved transistor is "
-                   "outside its amplifying region (the output warns)")
+    add_overwrite(p)
+    add_force(p)
 
 
 def run(args) -> int:
     from pathlib import Path
 
     from solver import api
-    from solver.cli.commands.common import emit_json, frequency, print_warnings, write_file
+    from solver.cli.commands.common import emit_json, frequency, plot_format, print_warnings, refuse_existing, write_file
     from solver.diagnostics import error
     if args.at is not None and (args.f_from is not None or args.f_to is not None or args.points is not None):
         raise error(None, "--at gives one frequency; it does not combine with --from, --to or --points")
@@ -61,14 +61,8 @@ def run(args) -> int:
             raise error(None, "--to must be above --from")
     if args.points is not None and not (2 <= args.points <= MAX_POINTS):
         raise error(None, f"--points: between 2 and {MAX_POINTS}")
-    plot_fmt = None
-    if args.plot:
-        plot_fmt = Path(args.plot).suffix.lower().lstrip(".")
-        if plot_fmt not in ("png", "svg"):
-            raise error(None, "--plot: the file name ends in .png or .svg")
-    for out in (args.csv, args.plot):  # refuse before any work, so nothing is half written
-        if out and Path(out).exists() and not args.overwrite:
-            raise error(None, f"'{out}' exists; use --overwrite to replace it")
+    plot_fmt = plot_format(args.plot)
+    refuse_existing((args.csv, args.plot), args.overwrite)  # before any work, so nothing is half written
     c = api.load(args.file)
     res = api.noise(c, f_from, f_to, args.points, at, force=args.force)
     print_warnings(res.warnings)

@@ -28,9 +28,10 @@ from solver.circuit.model import PORT_QUANTITIES as QUANTITY_CHOICES  # noqa: E4
 
 
 def add_arguments(p) -> None:
+    from solver.cli.commands.common import add_force, add_overwrite
     p.add_argument("file", help="netlist file (.pw)")
     p.add_argument("-o", "--output", metavar="NAME.html", required=True, help="the HTML file to write")
-    p.add_argument("--overwrite", action="store_true", help="replace the output file if it exists")
+    add_overwrite(p)
     p.add_argument("--at", metavar="FREQ", help="analysis frequency of the port quantities and claims "
                    "(default as solve: the detected midband; DC without reactive parts)")
     p.add_argument("--from", dest="f_from", metavar="FREQ", help="lowest frequency of the frequency response "
@@ -42,8 +43,7 @@ def add_arguments(p) -> None:
     p.add_argument("--loop-around", action="append", default=[], metavar="NAME",
                    help="also show the loop gain around this transistor or controlled source (repeatable; "
                    "every op-amp with a gain= is shown anyway)")
-    p.add_argument("--force", action="store_true", help="analyse a transistor outside its amplifying region "
-                   "(the report warns)")
+    add_force(p)
     p.add_argument("--json", action="store_true", help="also print each section's data as one JSON object")
 
 
@@ -51,13 +51,12 @@ def run(args) -> int:
     from pathlib import Path
 
     from solver import api
-    from solver.cli.commands.common import emit_json, frequency, print_warnings, write_file
+    from solver.cli.commands.common import emit_json, frequency, print_warnings, refuse_existing, write_file
     from solver.diagnostics import error
     out = Path(args.output)
     if out.suffix.lower() not in (".html", ".htm"):
         raise error(None, "-o: the file name ends in .html")
-    if out.exists() and not args.overwrite:  # refuse before any work, so nothing is lost
-        raise error(None, f"'{out}' exists; use --overwrite to replace it")
+    refuse_existing([out], args.overwrite)  # before any work, so nothing is lost
     at = frequency(args.at) if args.at is not None else None
     f_from = frequency(args.f_from, "--from") if args.f_from is not None else None
     f_to = frequency(args.f_to, "--to") if args.f_to is not None else None

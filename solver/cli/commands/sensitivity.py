@@ -15,13 +15,13 @@ examples:
 
 
 def add_arguments(p) -> None:
+    from solver.cli.commands.common import add_force
     p.add_argument("file", help="netlist file (.pw)")
     p.add_argument("quantities", nargs="*", metavar="QUANTITY", help="port quantities (default: all the "
                    "circuit defines)")
     p.add_argument("--at", metavar="FREQ", help="analysis frequency (default as for 'portwise solve')")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
-    p.add_argument("--force", action="store_true", help="analyse even when a bias-solved transistor is outside "
-                   "its amplifying region")
+    add_force(p)
 
 
 def run(args) -> int:

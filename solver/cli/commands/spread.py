@@ -20,6 +20,7 @@ MAX_SAMPLES = 10_000_000
 
 
 def add_arguments(p) -> None:
+    from solver.cli.commands.common import add_force, add_overwrite
     p.add_argument("file", help="netlist file (.pw)")
     p.add_argument("--samples", type=int, default=1000, metavar="N", help="Monte Carlo samples (default 1000)")
     p.add_argument("--seed", type=int, metavar="S", help="seed of the random generator (default: a fresh one, "
@@ -29,16 +30,15 @@ def add_arguments(p) -> None:
                    "ranges (all 2^k corners up to 12 spreads)")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
     p.add_argument("--plot", metavar="FILE", help="write histograms with the spec limits (.png or .svg)")
-    p.add_argument("--overwrite", action="store_true", help="replace a --plot file that exists")
-    p.add_argument("--force", action="store_true", help="analyse even when the nominal bias point is outside "
-                   "the amplifying region")
+    add_overwrite(p)
+    add_force(p)
 
 
 def run(args) -> int:
     from pathlib import Path
 
     from solver import api
-    from solver.cli.commands.common import emit_json, frequency, print_warnings, write_file
+    from solver.cli.commands.common import emit_json, frequency, plot_format, print_warnings, refuse_existing, write_file
     from solver.diagnostics import error
     from solver.output.variation import spread_report
     if not (2 <= args.samples <= MAX_SAMPLES):
@@ -47,11 +47,8 @@ def run(args) -> int:
         raise error(None, "--seed: a non-negative integer")
     fmt = None
     if args.plot:
-        fmt = Path(args.plot).suffix.lower().lstrip(".")
-        if fmt not in ("png", "svg"):
-            raise error(None, "--plot: the file name ends in .png or .svg")
-        if Path(args.plot).exists() and not args.overwrite:
-            raise error(None, f"'{args.plot}' exists; use --overwrite to replace it")
+        fmt = plot_format(args.plot)
+        refuse_existing([args.plot], args.overwrite)  # before the work, not after it
     at = frequency(args.at) if args.at is not None else None
     r = api.spread(args.file, samples=args.samples, seed=args.seed, at=at, worst=args.worst, force=args.force)
     print_warnings(r.warnings)

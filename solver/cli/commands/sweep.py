@@ -53,7 +53,7 @@ def run(args) -> int:
     from solver.analysis.frequency import ResponseError, default_quantity, frequencies
     from solver.analysis.pipeline import load, prepare
     from solver.analysis.response import analyse
-    from solver.cli.commands.common import emit_json, frequency, print_warnings, refuse_existing, write_file
+    from solver.cli.commands.common import emit_json, frequency, plot_format, print_warnings, refuse_existing, write_file
     from solver.diagnostics import error
     from solver.output.sweep import csv_text, summary_json, text_report
     f_from = frequency(args.f_from, "--from")
@@ -66,11 +66,7 @@ def run(args) -> int:
         raise error(None, f"--points: between 2 and {MAX_POINTS}")
     if args.per_decade is not None and not (1 <= args.per_decade <= 100_000):
         raise error(None, "--per-decade: between 1 and 100000")
-    plot_fmt = None
-    if args.plot:
-        plot_fmt = Path(args.plot).suffix.lower().lstrip(".")
-        if plot_fmt not in ("png", "svg"):
-            raise error(None, "--plot: the file name ends in .png or .svg")
+    plot_fmt = plot_format(args.plot)
     refuse_existing((args.csv, args.plot), args.overwrite)  # before any work, so nothing is half written
     p = prepare(load(args.file), "ports", "ac", args.force)
     c = p.circuit

@@ -16,6 +16,7 @@ examples:
 
 
 def add_arguments(p) -> None:
+    from solver.cli.commands.common import add_force
     p.add_argument("file", help="netlist file (.pw)")
     p.add_argument("--set", required=True, metavar="Q=TARGET", help="the quantity and its target, e.g. Av=40, "
                    "Rin=10k")
@@ -25,8 +26,7 @@ def add_arguments(p) -> None:
                    "E6, E12, E24 (default for R, C, L), E48, E96, E192")
     p.add_argument("--at", metavar="FREQ", help="analysis frequency (default as for 'portwise solve')")
     p.add_argument("--json", action="store_true", help="print one JSON object instead of the report")
-    p.add_argument("--force", action="store_true", help="analyse even when a bias-solved transistor is outside "
-                   "its amplifying region")
+    add_force(p)
 
 
 def run(args) -> int:
